@@ -1,0 +1,30 @@
+# streakwise: the two commands a new machine needs are `make run` and `make test`.
+PYTHON ?= python3
+VENV ?= .venv
+PY := $(VENV)/bin/python
+STORE_DIR ?= demo
+
+.PHONY: install run test bench clean
+
+$(VENV)/.installed: pyproject.toml
+	$(PYTHON) -m venv $(VENV)
+	$(PY) -m pip install --quiet --upgrade pip
+	$(PY) -m pip install --quiet -e ".[test]"
+	touch $@
+
+install: $(VENV)/.installed
+
+# The main job: build the example store and list its players.
+run: install
+	$(VENV)/bin/streakwise ingest examples/harbor-league-sample.csv --profile examples/harbor-league-sample.toml --store $(STORE_DIR)/streakwise.duckdb
+	$(VENV)/bin/streakwise players --store $(STORE_DIR)/streakwise.duckdb
+
+# The whole test suite (STREAKWISE_REQUIRE_ALL_TESTS=1 makes a skipped test fail the run).
+test: install
+	$(PY) -m pytest -q $(PYTEST_ARGS)
+
+bench: install
+	$(PY) benchmarks/ingest_benchmark.py
+
+clean:
+	rm -rf $(VENV) build *.egg-info .pytest_cache $(STORE_DIR)

@@ -1,0 +1,5 @@
+"""``python -m streakwise.cli``."""
+
+from .main import main
+
+raise SystemExit(main())

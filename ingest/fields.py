@@ -1,0 +1,256 @@
+"""Vectorised parsing of one column of a raw table, recording bad cells.
+
+Each parser takes a pandas Series of whatever the file held (text from CSV,
+native values from Parquet, JSON and Excel) and returns canonical values,
+adding one problem per bad cell to a :class:`RowProblems`.  No Python loop
+runs over the rows except to format messages for bad cells.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from .errors import Problem
+
+__all__ = [
+    "RowProblems",
+    "parse_clock",
+    "parse_date",
+    "parse_flag",
+    "parse_number",
+    "parse_text",
+    "parse_timestamp",
+]
+
+
+class RowProblems:
+    """Problems found in the rows of one table, kept as arrays.
+
+    Parameters
+    ----------
+    path : str
+        The file, for messages.
+    rows : numpy.ndarray
+        The source row number of each position of the table.
+    """
+
+    def __init__(self, path: str, rows: np.ndarray) -> None:
+        self.path = path
+        self.rows = np.asarray(rows, dtype=np.int64)
+        self._positions: list[np.ndarray] = []
+        self._columns: list[np.ndarray] = []
+        self._messages: list[np.ndarray] = []
+
+    def add(self, mask, column: str | None, message) -> None:
+        """Record ``message`` (text, or one text per flagged row) for rows in ``mask``."""
+        mask = np.asarray(mask, dtype=bool)
+        if not mask.any():
+            return
+        positions = np.flatnonzero(mask)
+        if isinstance(message, str):
+            messages = np.full(len(positions), message, dtype=object)
+        else:
+            messages = np.asarray(message, dtype=object)
+            if len(messages) == len(mask):
+                messages = messages[positions]
+        self._positions.append(positions)
+        self._columns.append(np.full(len(positions), column, dtype=object))
+        self._messages.append(messages)
+
+    def bad(self) -> np.ndarray:
+        """Boolean mask of rows with at least one problem."""
+        mask = np.zeros(len(self.rows), dtype=bool)
+        for positions in self._positions:
+            mask[positions] = True
+        return mask
+
+    def __len__(self) -> int:
+        return int(sum(len(p) for p in self._positions))
+
+    def frame(self) -> pd.DataFrame:
+        """Problems as a frame (position, row, column, message) in row order."""
+        if not self._positions:
+            return pd.DataFrame({"position": np.array([], dtype=np.int64), "row": np.array([], dtype=np.int64), "column": [], "message": []})
+        positions = np.concatenate(self._positions)
+        out = pd.DataFrame(
+            {
+                "position": positions,
+                "row": self.rows[positions],
+                "column": np.concatenate(self._columns),
+                "message": np.concatenate(self._messages),
+            }
+        )
+        return out.sort_values(["row", "position"], kind="stable").reset_index(drop=True)
+
+    def problems(self) -> list[Problem]:
+        table = self.frame()
+        return [
+            Problem(self.path, int(r), c if isinstance(c, str) else None, str(m))
+            for r, c, m in zip(table["row"], table["column"], table["message"], strict=True)
+        ]
+
+
+def _as_text(series: pd.Series) -> pd.Series:
+    """Values as stripped text, missing as NA (integral floats print as integers)."""
+    if pd.api.types.is_bool_dtype(series.dtype):
+        out = series.map({True: "true", False: "false"}).astype("string")
+    elif pd.api.types.is_float_dtype(series.dtype):
+        values = series.to_numpy(dtype=float, na_value=np.nan)
+        integral = np.isfinite(values) & (np.floor(values) == values) & (np.abs(values) < 2**53)
+        text = series.astype("string")
+        if integral.any():
+            text = text.where(~integral, pd.Series(values, index=series.index).where(integral, 0).astype(np.int64).astype("string"))
+        out = text
+    elif pd.api.types.is_integer_dtype(series.dtype) or pd.api.types.is_string_dtype(series.dtype):
+        out = series.astype("string")
+    else:  # object: mixed values from JSON or Excel
+        out = series.map(_cell_text, na_action="ignore").astype("string")
+    out = out.str.strip()
+    return out.mask(out == "")
+
+
+def _cell_text(value) -> str | None:
+    if value is None:
+        return None
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, float):
+        if value != value:
+            return None
+        if value.is_integer() and abs(value) < 2**53:
+            return str(int(value))
+    if hasattr(value, "isoformat"):
+        return value.isoformat()
+    return str(value)
+
+
+def parse_text(series: pd.Series) -> pd.Series:
+    """Text values (string dtype), missing as NA."""
+    return _as_text(series)
+
+
+def parse_number(
+    series: pd.Series,
+    column: str,
+    problems: RowProblems,
+    *,
+    integer: bool = False,
+    minimum: float | None = None,
+    maximum: float | None = None,
+    what: str = "a number",
+) -> pd.Series:
+    """Numbers as float64 (or Int64 with ``integer``); NA where missing or bad."""
+    if pd.api.types.is_bool_dtype(series.dtype):
+        problems.add(series.notna().to_numpy(), column, f"expected {what}, found true/false")
+        values = pd.Series(np.nan, index=series.index)
+    elif pd.api.types.is_numeric_dtype(series.dtype):
+        values = series.astype("float64")
+    else:
+        text = _as_text(series)
+        values = pd.to_numeric(text, errors="coerce").astype("float64")
+        bad = (text.notna() & values.isna()).to_numpy()
+        if bad.any():
+            problems.add(bad, column, [f"expected {what}, found {v!r}" for v in text[bad]])
+        values = values.where(~bad)
+    array = values.to_numpy(dtype=float, na_value=np.nan)
+    infinite = np.isinf(array)
+    if infinite.any():
+        problems.add(infinite, column, f"expected {what}, found an infinite value")
+        array = np.where(infinite, np.nan, array)
+    if integer:
+        fractional = np.isfinite(array) & (np.floor(array) != array)
+        if fractional.any():
+            problems.add(fractional, column, [f"expected a whole number, found {v:g}" for v in array[fractional]])
+            array = np.where(fractional, np.nan, array)
+    if minimum is not None:
+        low = np.isfinite(array) & (array < minimum)
+        if low.any():
+            problems.add(low, column, [f"impossible value {v:g}: must be at least {minimum:g}" for v in array[low]])
+            array = np.where(low, np.nan, array)
+    if maximum is not None:
+        high = np.isfinite(array) & (array > maximum)
+        if high.any():
+            problems.add(high, column, [f"impossible value {v:g}: must be at most {maximum:g}" for v in array[high]])
+            array = np.where(high, np.nan, array)
+    if integer:
+        out = pd.Series(pd.array(np.where(np.isnan(array), 0, array).astype(np.int64), dtype="Int64"), index=series.index)
+        return out.mask(np.isnan(array))
+    return pd.Series(array, index=series.index, dtype="float64")
+
+
+def parse_flag(
+    series: pd.Series,
+    column: str,
+    problems: RowProblems,
+    *,
+    true_words: tuple[str, ...],
+    false_words: tuple[str, ...],
+    what: str,
+    true_label: str = "made",
+    false_label: str = "missed",
+) -> pd.Series:
+    """Two-valued field (an outcome, home/away) as nullable boolean."""
+    if pd.api.types.is_bool_dtype(series.dtype):
+        return series.astype("boolean")
+    text = _as_text(series).str.lower()
+    lookup = {w: True for w in true_words} | {w: False for w in false_words}
+    mapped = text.map(lookup)
+    bad = (text.notna() & mapped.isna()).to_numpy()
+    if bad.any():
+        expected = f"{_listing(true_words)} for {true_label} or {_listing(false_words)} for {false_label}"
+        originals = _as_text(series)[bad]
+        problems.add(bad, column, [f"unknown {what} {v!r}; expected {expected}" for v in originals])
+    return mapped.astype("boolean")
+
+
+def _listing(words: tuple[str, ...], limit: int = 8) -> str:
+    shown = ", ".join(repr(w) for w in words[:limit])
+    return shown + (", ..." if len(words) > limit else "")
+
+
+_CLOCK = r"^(?:(?P<h>\d+):)?(?P<m>\d+):(?P<s>\d{1,2}(?:\.\d*)?)$"
+
+
+def parse_clock(series: pd.Series, column: str, problems: RowProblems) -> pd.Series:
+    """Game clock as seconds: ``M:SS``, ``M:SS.s``, ``H:MM:SS`` or plain seconds."""
+    if pd.api.types.is_numeric_dtype(series.dtype) and not pd.api.types.is_bool_dtype(series.dtype):
+        return parse_number(series, column, problems, minimum=0, what="a game clock")
+    text = _as_text(series)
+    parts = text.str.extract(_CLOCK)
+    minutes = pd.to_numeric(parts["m"], errors="coerce")
+    seconds = pd.to_numeric(parts["s"], errors="coerce")
+    hours = pd.to_numeric(parts["h"], errors="coerce").fillna(0)
+    clocked = (hours * 3600 + minutes * 60 + seconds).astype("float64")
+    plain = pd.to_numeric(text.where(parts["m"].isna()), errors="coerce").astype("float64")
+    values = clocked.fillna(plain)
+    bad_seconds = (seconds >= 60).fillna(False).to_numpy()
+    bad = (text.notna() & values.isna()).to_numpy() | bad_seconds
+    if bad.any():
+        problems.add(bad, column, [f"expected a game clock like 7:45, 7:45.3 or seconds, found {v!r}" for v in text[bad]])
+        values = values.where(~bad)
+    negative = (values < 0).fillna(False).to_numpy()
+    if negative.any():
+        problems.add(negative, column, "impossible game clock: negative")
+        values = values.where(~negative)
+    return values
+
+
+def parse_timestamp(series: pd.Series, column: str, problems: RowProblems) -> pd.Series:
+    """Date-times (ISO 8601 text or native), as datetime64[us]."""
+    if pd.api.types.is_datetime64_any_dtype(series.dtype):
+        values = series
+        if getattr(values.dt, "tz", None) is not None:
+            values = values.dt.tz_convert("UTC").dt.tz_localize(None)
+        return values.astype("datetime64[us]")
+    text = _as_text(series)
+    values = pd.to_datetime(text, errors="coerce", format="ISO8601", utc=True)
+    bad = (text.notna() & values.isna()).to_numpy()
+    if bad.any():
+        problems.add(bad, column, [f"expected a date-time like 2025-01-31T19:05:00, found {v!r}" for v in text[bad]])
+    return values.dt.tz_localize(None).astype("datetime64[us]")
+
+
+def parse_date(series: pd.Series, column: str, problems: RowProblems) -> pd.Series:
+    """Dates (time of day dropped), as datetime64[us]."""
+    return parse_timestamp(series, column, problems).dt.normalize()
