@@ -44,7 +44,8 @@ def select_attempt_events(raw_frame: pd.DataFrame, rows: np.ndarray, profile: Pr
     ]
     skipped_kinds = kinds[~is_attempt & pd.isna(duplicate)].fillna("(no kind)")
     skipped = {str(k): int(v) for k, v in skipped_kinds.value_counts(sort=True).items()}
-    attempts = raw_frame.loc[is_attempt].copy()
+    needed = list(dict.fromkeys(profile.columns.values()))
+    attempts = raw_frame.loc[is_attempt, needed].copy()  # only the mapped columns travel on
     chosen = kinds[is_attempt]
     attempts["_kind_type"] = chosen.map({k: v.attempt_type for k, v in table.items()}).astype("string")
     attempts["_kind_made"] = chosen.map({k: v.made for k, v in table.items() if v.made is not None}).astype("boolean")
@@ -58,18 +59,17 @@ def _duplicate_events(raw_frame: pd.DataFrame, rows: np.ndarray, profile: Profil
     out = np.full(len(raw_frame), None, dtype=object)
     if "index" not in profile.columns or "game" not in profile.columns:
         return out
-    keys = pd.DataFrame(
-        {
-            "game": parse_text(raw_frame[profile.columns["game"]]).to_numpy(),
-            "index": parse_text(raw_frame[profile.columns["index"]]).to_numpy(),
-        }
-    )
-    present = keys.notna().all(axis=1).to_numpy()
-    duplicate = keys.duplicated(keep="first").to_numpy() & present
+    games = parse_text(raw_frame[profile.columns["game"]])
+    indices = parse_text(raw_frame[profile.columns["index"]])
+    present = (games.notna() & indices.notna()).to_numpy()
+    game_codes, _ = pd.factorize(games)
+    index_codes, _ = pd.factorize(indices)
+    combined = game_codes.astype(np.int64) * (int(index_codes.max(initial=0)) + 2) + index_codes
+    duplicate = pd.Series(combined).duplicated(keep="first").to_numpy() & present
     if duplicate.any():
-        positions = pd.Series(np.arange(len(keys)))
-        first = positions.groupby([keys["game"], keys["index"]], dropna=True).transform("min").to_numpy()
+        positions = pd.Series(np.arange(len(games)))
+        first = positions.groupby(combined).transform("min").to_numpy()
         for position in np.flatnonzero(duplicate):
-            game, index = keys.at[position, "game"], keys.at[position, "index"]
+            game, index = games.iloc[position], indices.iloc[position]
             out[position] = f"duplicate event: game {game!r} already has event {index} at row {rows[int(first[position])]}"
     return out

@@ -10,6 +10,8 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
 
 from .errors import Problem
 
@@ -125,6 +127,31 @@ def _cell_text(value) -> str | None:
     return str(value)
 
 
+_NUMBER = r"^[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?$"
+
+
+def _arrow(text: pd.Series) -> pa.ChunkedArray:
+    """The Arrow strings behind a string Series (no copy when Arrow-backed)."""
+    array = text.array
+    if hasattr(array, "__arrow_array__"):
+        converted = array.__arrow_array__()
+    else:
+        converted = pa.array(text.to_numpy(dtype=object, na_value=None), type=pa.string())
+    if isinstance(converted, pa.Array):
+        converted = pa.chunked_array([converted], type=converted.type)
+    if converted.type != pa.string():
+        converted = converted.cast(pa.string())
+    return converted
+
+
+def _floats(strings: pa.ChunkedArray, pattern: str = _NUMBER) -> tuple[np.ndarray, np.ndarray]:
+    """(values, valid) for Arrow strings: NaN and False where not a plain number."""
+    valid = pc.fill_null(pc.match_substring_regex(strings, pattern), False)
+    kept = pc.if_else(valid, strings, pa.scalar(None, pa.string()))
+    values = pc.cast(kept, pa.float64()).to_numpy(zero_copy_only=False)
+    return np.asarray(values, dtype=np.float64), valid.to_numpy(zero_copy_only=False)
+
+
 def parse_text(series: pd.Series) -> pd.Series:
     """Text values (string dtype), missing as NA."""
     return _as_text(series)
@@ -148,11 +175,11 @@ def parse_number(
         values = series.astype("float64")
     else:
         text = _as_text(series)
-        values = pd.to_numeric(text, errors="coerce").astype("float64")
-        bad = (text.notna() & values.isna()).to_numpy()
+        numbers, valid = _floats(_arrow(text))
+        bad = text.notna().to_numpy() & ~valid
         if bad.any():
             problems.add(bad, column, [f"expected {what}, found {v!r}" for v in text[bad]])
-        values = values.where(~bad)
+        values = pd.Series(numbers, index=series.index, dtype="float64")
     array = values.to_numpy(dtype=float, na_value=np.nan)
     infinite = np.isinf(array)
     if infinite.any():
@@ -217,15 +244,27 @@ def parse_clock(series: pd.Series, column: str, problems: RowProblems) -> pd.Ser
     if pd.api.types.is_numeric_dtype(series.dtype) and not pd.api.types.is_bool_dtype(series.dtype):
         return parse_number(series, column, problems, minimum=0, what="a game clock")
     text = _as_text(series)
-    parts = text.str.extract(_CLOCK)
-    minutes = pd.to_numeric(parts["m"], errors="coerce")
-    seconds = pd.to_numeric(parts["s"], errors="coerce")
-    hours = pd.to_numeric(parts["h"], errors="coerce").fillna(0)
-    clocked = (hours * 3600 + minutes * 60 + seconds).astype("float64")
-    plain = pd.to_numeric(text.where(parts["m"].isna()), errors="coerce").astype("float64")
-    values = clocked.fillna(plain)
-    bad_seconds = (seconds >= 60).fillna(False).to_numpy()
-    bad = (text.notna() & values.isna()).to_numpy() | bad_seconds
+    strings = _arrow(text)
+    parts = pc.extract_regex(strings, _CLOCK)
+    matched = parts.is_valid().to_numpy(zero_copy_only=False)
+    if isinstance(parts, pa.ChunkedArray):
+        parts = parts.combine_chunks()
+    if len(parts):
+        fields = {name: parts.field(name) for name in ("h", "m", "s")}
+        def number(field: pa.Array) -> np.ndarray:
+            # entries of unmatched rows (and an absent hour) hold "": read as 0, masked below
+            filled = pc.if_else(pc.fill_null(pc.equal(field, ""), True), "0", field)
+            return np.asarray(pc.cast(filled, pa.float64()).to_numpy(zero_copy_only=False), float)
+
+        hours, minutes, seconds = (number(fields[name]) for name in ("h", "m", "s"))
+        clocked = hours * 3600 + minutes * 60 + seconds
+    else:
+        seconds = clocked = np.zeros(0)
+    plain, plain_valid = _floats(strings)
+    array = np.where(matched, clocked, np.where(plain_valid, plain, np.nan))
+    bad_seconds = matched & (np.nan_to_num(np.asarray(seconds, float), nan=0.0) >= 60)
+    bad = (text.notna().to_numpy() & ~matched & ~plain_valid) | bad_seconds
+    values = pd.Series(array, index=series.index, dtype="float64")
     if bad.any():
         problems.add(bad, column, [f"expected a game clock like 7:45, 7:45.3 or seconds, found {v!r}" for v in text[bad]])
         values = values.where(~bad)

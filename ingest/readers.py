@@ -220,15 +220,24 @@ def _read_csv(path: str, data: bytes, delimiter: str):
         problems.append(
             Problem(path, row, None, f"expected {expected} fields as in the header, found {actual}")
         )
-    all_records = np.arange(2, len(starts) + 1, dtype=np.int64)
-    good = np.setdiff1d(all_records, np.asarray(bad_records, dtype=np.int64), assume_unique=False)
+    good = _good_records(len(starts), bad_records)
     if len(good) != len(frame):  # numbering not as expected: fall back to a full scan
         starts = _record_start_lines(text, delimiter)
-        good = np.setdiff1d(np.arange(2, len(starts) + 1), np.asarray(bad_records, dtype=np.int64))
+        good = _good_records(len(starts), bad_records)
         if len(good) != len(frame):
             good = np.arange(2, len(frame) + 2)
     rows = starts[good - 1] if len(good) and good.max() <= len(starts) else good
     return frame, rows, problems
+
+
+def _good_records(records: int, bad: list[int]) -> np.ndarray:
+    """Record numbers 2..records (1 is the header) that are not in ``bad``."""
+    keep = np.ones(records + 1, dtype=bool)
+    keep[:2] = False
+    bad_array = np.asarray(bad, dtype=np.int64)
+    bad_array = bad_array[(bad_array >= 0) & (bad_array <= records)]
+    keep[bad_array] = False
+    return np.flatnonzero(keep)
 
 
 def _record_start_lines(text: str, delimiter: str) -> np.ndarray:

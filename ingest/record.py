@@ -29,6 +29,7 @@ Column meanings (see DESIGN.md "Canonical shot record"):
 
 from __future__ import annotations
 
+import numpy as np
 import pandas as pd
 
 from .errors import InputError, Problem
@@ -144,12 +145,9 @@ def validate_record(frame: pd.DataFrame, *, path: str = "<record>") -> pd.DataFr
         raise InputError(problems=problems)
 
     if n:
-        keys = ["player", "session"]
-        order = result.sort_values(keys + ["seq"], kind="stable")
-        expected = order.groupby(keys, sort=False, observed=True).cumcount().to_numpy()
-        wrong = order["seq"].to_numpy() != expected
-        if wrong.any():
-            first = order.iloc[int(wrong.argmax())]
+        wrong_position = _first_bad_seq(result)
+        if wrong_position is not None:
+            first = result.iloc[wrong_position]
             problems.append(
                 Problem(
                     str(first["source"]),
@@ -162,3 +160,31 @@ def validate_record(frame: pd.DataFrame, *, path: str = "<record>") -> pd.DataFr
         if problems:
             raise InputError(problems=problems)
     return result
+
+
+def _first_bad_seq(frame: pd.DataFrame) -> int | None:
+    """Position of an attempt whose ``seq`` breaks 0, 1, 2, ... in its session, else None.
+
+    Linear when the frame is already ordered by (player, session, seq), as
+    the adapters and the store produce it; otherwise it sorts first.
+    """
+    player = frame["player"].to_numpy(dtype=object)
+    session = frame["session"].to_numpy(dtype=object)
+    seq = frame["seq"].to_numpy(dtype=np.int64)
+    same = np.zeros(len(frame), dtype=bool)
+    same[1:] = (player[1:] == player[:-1]) & (session[1:] == session[:-1])
+    expected = np.zeros(len(frame), dtype=np.int64)
+    expected[1:] = seq[:-1] + 1
+    good = np.where(same, seq == expected, seq == 0)
+    if good.all():
+        # consecutive runs are right; a session split over two runs would repeat keys
+        starts = ~same
+        keys = pd.DataFrame({"player": player[starts], "session": session[starts]})
+        if not keys.duplicated().any():
+            return None
+    order = frame.sort_values(["player", "session", "seq"], kind="stable")
+    expected_sorted = order.groupby(["player", "session"], sort=False, observed=True).cumcount().to_numpy()
+    wrong = order["seq"].to_numpy() != expected_sorted
+    if not wrong.any():
+        return None
+    return int(frame.index.get_loc(order.index[int(wrong.argmax())]))
