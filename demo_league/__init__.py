@@ -1,0 +1,1 @@
+"""streakwise.demo_league."""
