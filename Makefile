@@ -14,10 +14,10 @@ $(VENV)/.installed: pyproject.toml
 
 install: $(VENV)/.installed
 
-# The main job: build the example store and list its players.
+# The main job: build the invented demo league into $(STORE_DIR)/ and list its players.
 run: install
-	$(VENV)/bin/streakwise ingest examples/harbor-league-sample.csv --profile examples/harbor-league-sample.toml --store $(STORE_DIR)/streakwise.duckdb
-	$(VENV)/bin/streakwise players --store $(STORE_DIR)/streakwise.duckdb
+	$(VENV)/bin/streakwise demo --out $(STORE_DIR)
+	$(VENV)/bin/streakwise players --store $(STORE_DIR)/streakwise.duckdb --attempt-type field_goal
 
 # The whole test suite (STREAKWISE_REQUIRE_ALL_TESTS=1 makes a skipped test fail the run).
 test: install

@@ -6,7 +6,7 @@ import importlib
 
 import pytest
 
-PACKAGES = ["streakwise.ingest", "streakwise.analysis", "streakwise.cli"]
+PACKAGES = ["streakwise.analysis", "streakwise.cli", "streakwise.demo_league", "streakwise.ingest"]
 
 
 @pytest.mark.parametrize("name", PACKAGES)
