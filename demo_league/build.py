@@ -15,7 +15,7 @@ from .games import play_practice, play_season
 from .scenario import Scenario, build_scenario
 from .write import write_attempt_table, write_drill_sheets, write_event_log, write_truth
 
-__all__ = ["DEFAULT_SEED", "PROFILES", "DemoSource", "DemoSummary", "build_demo", "demo_files", "write_demo_files"]
+__all__ = ["DEFAULT_SEED", "DemoSource", "DemoSummary", "PROFILES", "build_demo", "demo_files", "write_demo_files"]
 
 #: Seed of ``streakwise demo`` when none is given.
 DEFAULT_SEED = 2031
