@@ -75,31 +75,46 @@ def _parse_sessions(value: str | None) -> tuple[str | None, float | None]:
     return value, None
 
 
-class _FileProgress:
-    """A bar over the files of one ingest (tqdm on stderr), shown for big files."""
+class _StageProgress:
+    """A progress bar over each big file's stages (read, check, order, finish, store).
+
+    Shown on stderr for files of more than about ``PROGRESS_ROWS`` rows (judged
+    from the file size); small files print nothing extra.
+    """
+
+    STAGES = ("read", "check", "order", "finish", "store")
 
     def __init__(self, paths) -> None:
         import os
 
-        sizes = []
+        self.big = set()
         for path in paths:
             try:
-                sizes.append(os.path.getsize(path))
+                if os.path.getsize(path) >= PROGRESS_ROWS * _BYTES_PER_ROW_GUESS:
+                    self.big.add(str(path))
             except OSError:
-                sizes.append(0)
+                pass
         self.bar = None
-        if max(sizes, default=0) >= PROGRESS_ROWS * _BYTES_PER_ROW_GUESS:
+        if self.big:
             from tqdm import tqdm
 
-            self.bar = tqdm(total=len(paths), unit="file", file=sys.stderr, leave=False, desc="reading")
+            self.bar = tqdm(total=len(self.big) * len(self.STAGES), unit="step", file=sys.stderr, leave=False)
+        self.done: dict[str, int] = {}
 
-    def __call__(self, path: str) -> None:
-        if self.bar is not None:
-            import os
+    def stage(self, path: str, name: str) -> None:
+        if self.bar is None or path not in self.big:
+            return
+        import os
 
-            self.bar.set_postfix_str(os.path.basename(path))
-            self.bar.update(0 if self.bar.n == 0 and not getattr(self, "_started", False) else 1)
-            self._started = True
+        step = self.STAGES.index(name) if name in self.STAGES else 0
+        previous = self.done.get(path, 0)
+        if step > previous:
+            self.bar.update(step - previous)
+            self.done[path] = step
+        self.bar.set_description_str(f"{os.path.basename(path)}: {name}")
+
+    def stored(self, outcome) -> None:
+        self.stage(str(outcome.loaded.path), "store")
 
     def close(self) -> None:
         if self.bar is not None:
@@ -134,9 +149,11 @@ def _summary(loaded: LoadedFile, status: str) -> dict:
 def run_ingest(args: argparse.Namespace) -> int:
     split, gap = _parse_sessions(args.sessions)
     profile = load_profile(args.profile) if args.profile else None
-    progress = _FileProgress(args.paths)
+    progress = _StageProgress(args.paths)
     try:
-        loaded = check_files(args.paths, profile, sessions=split, gap_seconds=gap, keep_going=args.keep_going, on_file=progress)
+        loaded = check_files(
+            args.paths, profile, sessions=split, gap_seconds=gap, keep_going=args.keep_going, on_stage=progress.stage
+        )
     except InputError as exc:
         progress.close()
         files = sorted({p.path for p in exc.problems})
@@ -148,14 +165,37 @@ def run_ingest(args: argparse.Namespace) -> int:
             file=sys.stderr,
         )
         return 2
-    progress.close()
     if args.check:
+        progress.close()
         results = [_summary(item, "checked") for item in loaded]
     else:
-        with Store(resolve_store_path(args.store)) as store:
-            outcomes = store_files(store, loaded, replace=args.replace)
-        results = [_summary(o.loaded, o.stored.status) for o in outcomes]
-    if args.json:
+        stored = []
+        try:
+            with Store(resolve_store_path(args.store)) as store:
+                def on_stored(outcome) -> None:
+                    stored.append(outcome)
+                    progress.stored(outcome)
+
+                store_files(store, loaded, replace=args.replace, on_stored=on_stored)
+        except InputError as exc:
+            # A file clashing with the store is found while storing: say which files went in before it.
+            _print_results([_summary(o.loaded, o.stored.status) for o in stored], args.json)
+            print(f"error: {exc}", file=sys.stderr)
+            print(
+                f"stored {len(stored)} of {len(loaded)} file{'s' if len(loaded) != 1 else ''} before this error; "
+                f"{exc.path} and any files after it were not stored.",
+                file=sys.stderr,
+            )
+            return 2
+        finally:
+            progress.close()
+        results = [_summary(o.loaded, o.stored.status) for o in stored]
+    _print_results(results, args.json)
+    return 0
+
+
+def _print_results(results: list[dict], as_json: bool) -> None:
+    if as_json:
         print(to_json(results))
     else:
         for result in results:
@@ -167,7 +207,6 @@ def run_ingest(args: argparse.Namespace) -> int:
                 for reject in result["rejects"][:10]:
                     place = ":".join(str(p) for p in (result["path"], reject["row"], reject["column"]) if p is not None)
                     print(f"    {place}: {reject['message']}")
-    return 0
 
 
 def run_players(args: argparse.Namespace) -> int:
@@ -177,8 +216,8 @@ def run_players(args: argparse.Namespace) -> int:
     rows = [
         {
             "player": str(r.player),
-            "player_name": None if r.player_name is None or r.player_name != r.player_name else str(r.player_name),
-            "team": None if r.team is None or r.team != r.team else str(r.team),
+            "player_name": None if pd.isna(r.player_name) else str(r.player_name),
+            "team": None if pd.isna(r.team) else str(r.team),
             "attempts": int(r.attempts),
             "makes": int(r.makes),
             "sessions": int(r.sessions),

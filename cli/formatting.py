@@ -7,12 +7,17 @@ import math
 from collections.abc import Mapping, Sequence
 from typing import Any
 
-__all__ = ["format_count", "format_ingest_line", "format_rate", "render_table", "to_json"]
+__all__ = ["format_count", "format_ingest_line", "format_rate", "plural", "render_table", "to_json"]
 
 
 def format_count(value: int) -> str:
     """``1234567`` -> ``1,234,567``."""
     return f"{int(value):,}"
+
+
+def plural(count: int, noun: str) -> str:
+    """``plural(1, "attempt")`` -> ``1 attempt``; ``plural(1200, "attempt")`` -> ``1,200 attempts``."""
+    return f"{format_count(count)} {noun}{'' if count == 1 else 's'}"
 
 
 def format_rate(value: float | None, digits: int = 3) -> str:
@@ -70,8 +75,8 @@ def format_ingest_line(result: Mapping[str, Any]) -> str:
     text = (
         f"{name}: {verb}: {format_count(result['rows_read'])} rows read = "
         f"{format_count(result['rows_stored'])} stored + {format_count(result['rows_skipped'])} skipped + "
-        f"{format_count(result['rows_rejected'])} rejected; {format_count(result['attempts'])} attempts "
-        f"by {format_count(result['players'])} players in {format_count(result['sessions'])} sessions"
+        f"{format_count(result['rows_rejected'])} rejected; {plural(result['attempts'], 'attempt')} "
+        f"by {plural(result['players'], 'player')} in {plural(result['sessions'], 'session')}"
     )
     skipped = result.get("skipped_kinds") or {}
     if skipped:

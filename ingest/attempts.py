@@ -63,7 +63,7 @@ def check_columns(raw: RawTable, profile: Profile, extra: dict[str, str] | None 
     if extra:
         wanted.update(extra)
     present = [str(c) for c in raw.frame.columns]
-    header_row = 1 if raw.format in ("csv", "excel") else None
+    header_row = raw.header_row
     problems = []
     for field, column in wanted.items():
         if column in present:

@@ -190,6 +190,10 @@ def parse_number(
         if fractional.any():
             problems.add(fractional, column, [f"expected a whole number, found {v:g}" for v in array[fractional]])
             array = np.where(fractional, np.nan, array)
+        huge = np.isfinite(array) & (np.abs(array) >= 2.0**63)  # beyond int64: the cast below would wrap it
+        if huge.any():
+            problems.add(huge, column, [f"impossible value {v:g}: too large for a whole number" for v in array[huge]])
+            array = np.where(huge, np.nan, array)
     if minimum is not None:
         low = np.isfinite(array) & (array < minimum)
         if low.any():

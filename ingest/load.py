@@ -11,6 +11,7 @@ its reasons.  The counts always add up: rows read = rows stored + rows skipped
 from __future__ import annotations
 
 import warnings
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -73,6 +74,7 @@ def load_file(
     sessions: str | None = None,
     gap_seconds: float | None = None,
     keep_going: bool = False,
+    on_stage: Callable[[str], None] | None = None,
 ) -> LoadedFile:
     """Read ``path`` with ``profile`` (the canonical layout when ``None``).
 
@@ -88,6 +90,9 @@ def load_file(
         Pause in game time that starts a new session (with ``sessions="gap"``).
     keep_going : bool
         Keep the good rows of a file with bad rows (default: refuse the file).
+    on_stage : callable, optional
+        Called with each stage's name as it starts (``"read"``, ``"check"``,
+        ``"order"``, ``"finish"``), for progress bars.
 
     Raises
     ------
@@ -95,11 +100,13 @@ def load_file(
         With every problem found (``file:row:column: message``).
     """
     path = str(path)
+    stage = on_stage or (lambda name: None)
     if sessions is not None:
         if sessions not in ("game", "period", "gap", "season"):
             raise InputError(f"sessions must be one of game, period, gap, season (got {sessions!r})", path=path)
         if sessions == "gap" and not gap_seconds:
             raise InputError("splitting sessions by a gap needs a gap in seconds (e.g. gap:120)", path=path)
+    stage("read")
     raw = read_table(path, delimiter=profile.delimiter if profile else None, sheet=profile.sheet if profile else None)
     if profile is None:
         missing = [c for c in CANONICAL_REQUIRED if c not in raw.frame.columns]
@@ -120,6 +127,7 @@ def load_file(
         warnings.warn(message, SessionMergeWarning, stacklevel=2)
         notes.append(message)
 
+    stage("check")
     frame, rows = raw.frame, raw.rows
     skipped: dict[str, int] = {}
     unreadable = list(raw.problems)
@@ -143,6 +151,7 @@ def load_file(
             duplicate = frame["_duplicate"]
             problems.add(duplicate.notna().to_numpy(), profile.columns.get("index"), duplicate.to_numpy(dtype=object))
         attempts["_position"] = np.arange(len(attempts))
+        stage("order")
         attempts = assign_sessions(attempts, profile, problems, path=path, layout=profile.layout)
         layout = profile.layout
 
@@ -150,6 +159,7 @@ def load_file(
     if (bad_rows.any() or unreadable) and not keep_going:
         raise InputError(problems=sorted(unreadable + problems.problems(), key=lambda p: (p.row or 0, p.column or "")))
 
+    stage("finish")
     keep = ~bad_rows[attempts["_position"].to_numpy()] if len(attempts) else np.zeros(0, dtype=bool)
     attempts = attempts.loc[keep].copy()
     if profile.layout == "drills":

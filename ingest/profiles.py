@@ -201,6 +201,8 @@ def parse_profile(text: str, *, source: str = "<profile>") -> Profile:
     for key, value in fixed_table.items():
         if key not in ("team", "season", "competition", "attempt_type"):
             reader.unknown(f"fixed.{key}", key, ("team", "season", "competition", "attempt_type"))
+        if isinstance(value, (list, dict)) or (isinstance(value, float) and value != value):
+            raise InputError(f"expected a plain value (text or a number), got {value!r}", path=source, column=f"fixed.{key}")
         fixed[key] = str(value)
 
     outcomes = reader.table("outcomes")
@@ -226,7 +228,7 @@ def parse_profile(text: str, *, source: str = "<profile>") -> Profile:
     period_seconds = _positive(order.get("period_seconds"), source, "order.period_seconds")
     overtime_seconds = _positive(order.get("overtime_seconds"), source, "order.overtime_seconds")
     regular_periods = order.get("regular_periods", 4)
-    if not isinstance(regular_periods, int) or regular_periods < 1:
+    if isinstance(regular_periods, bool) or not isinstance(regular_periods, int) or regular_periods < 1:
         raise InputError(f"expected a whole number >= 1 (got {regular_periods!r})", path=source, column="order.regular_periods")
 
     types_table = reader.table("attempt_types")
@@ -303,6 +305,11 @@ def parse_profile(text: str, *, source: str = "<profile>") -> Profile:
 
     file_table = reader.table("file")
     _check_keys(file_table, ("delimiter", "sheet"), source, "file")
+    delimiter, sheet = file_table.get("delimiter"), file_table.get("sheet")
+    if delimiter is not None and (not isinstance(delimiter, str) or len(delimiter) != 1):
+        raise InputError(f"expected one character, like \",\" or \";\" (got {delimiter!r})", path=source, column="file.delimiter")
+    if sheet is not None and (not isinstance(sheet, str) or not sheet.strip()):
+        raise InputError(f"expected a sheet name (text), got {sheet!r}", path=source, column="file.sheet")
     reader.finish()
     if layout in ("attempts", "events"):
         for needed in ("player", "game"):
@@ -332,8 +339,8 @@ def parse_profile(text: str, *, source: str = "<profile>") -> Profile:
         separators=separators,
         session_split=split,
         session_gap_seconds=gap,
-        delimiter=file_table.get("delimiter"),
-        sheet=file_table.get("sheet"),
+        delimiter=delimiter,
+        sheet=sheet,
         fixed=fixed,
         source=source,
         text=text,

@@ -56,6 +56,9 @@ class RawTable:
         Records that could not be read (they are not in ``frame``).
     content_sha256 : str
         Hash of the file's bytes.
+    header_row : int or None
+        Row of the header (CSV: 1; Excel: the first row that is not blank);
+        ``None`` where the format has no header row.
     """
 
     path: str
@@ -64,6 +67,7 @@ class RawTable:
     rows: np.ndarray
     problems: tuple[Problem, ...] = field(default=())
     content_sha256: str = ""
+    header_row: int | None = None
 
     @property
     def records(self) -> int:
@@ -122,11 +126,12 @@ def read_table(path: str | Path, *, delimiter: str | None = None, sheet: str | N
         table = _read_parquet(text_path, data)
     else:
         table = _read_excel(text_path, data, sheet)
-    frame, rows, problems = table
+    frame, rows, problems, *header = table
+    header_row = header[0] if header else (1 if fmt == "csv" else None)
     if len(frame) == 0 and not problems:
-        raise InputError("file has a header but no data rows", path=text_path, row=1 if fmt in ("csv", "excel") else None)
+        raise InputError("file has a header but no data rows", path=text_path, row=header_row)
     frame = frame.reset_index(drop=True)
-    return RawTable(text_path, fmt, frame, np.asarray(rows, dtype=np.int64), tuple(problems), digest)
+    return RawTable(text_path, fmt, frame, np.asarray(rows, dtype=np.int64), tuple(problems), digest, header_row)
 
 
 # --------------------------------------------------------------------- text
@@ -160,7 +165,14 @@ def _read_csv(path: str, data: bytes, delimiter: str):
     text = _decode(path, data)
     if len(delimiter) != 1:
         raise InputError(f"CSV delimiter must be one character (got {delimiter!r})", path=path)
-    header = next(csv.reader(io.StringIO(text.split("\n", 1)[0]), delimiter=delimiter), [])
+    # The first record, read as the CSV reader below reads it (a lone \r ends a
+    # line too; a quoted name may span lines), from the start of the text only.
+    end = text.find("\n")
+    head = text[: end + 1] if end >= 0 and '"' not in text[:end] and "\r" not in text[:end] else text[: 1 << 20]
+    try:
+        header = next(csv.reader(io.StringIO(head, newline=""), delimiter=delimiter), [])
+    except csv.Error as exc:
+        raise InputError(f"cannot parse the header as CSV: {exc}", path=path, row=1) from None
     names = [h.strip() for h in header]
     if not any(names):
         raise InputError("the first line should be a header naming the columns, but it is empty", path=path, row=1)
@@ -303,6 +315,7 @@ def _read_parquet(path: str, data: bytes):
 
     try:
         table = pq.read_table(io.BytesIO(data))
+        table.validate(full=True)  # Parquet text is not checked on reading: invalid UTF-8 fails later otherwise
     except (pa.ArrowException, OSError, ValueError) as exc:
         raise InputError(f"cannot read as Parquet: {_arrow_message(exc)}", path=path) from None
     for position, column in enumerate(table.schema):
@@ -371,7 +384,7 @@ def _read_excel(path: str, data: bytes, sheet: str | None):
         records.append([_excel_value(v) for v in values])
         rows.append(number)
     frame = pd.DataFrame(records, columns=names, dtype=object) if records else pd.DataFrame(columns=names)
-    return frame, rows, problems
+    return frame, rows, problems, header_number
 
 
 def _blank(value) -> bool:

@@ -116,25 +116,25 @@ def assign_sessions(frame: pd.DataFrame, profile: Profile, problems: RowProblems
     frame["session"] = base.astype("string")
 
     group_keys = ["player", "session"]
+    # A season-long session holds many games: order is judged inside each game.
+    check_keys = group_keys + (["game"] if split == "season" and "_session" not in frame else [])
+    if split == "season" and "_session" not in frame:
+        frame["_game_rank"] = _game_rank(frame)
     # Backwards order and duplicates, judged in file order within each group.
-    if keys:
-        by_file = frame.sort_values(group_keys + ["_position"], kind="stable")
-        same_group = np.zeros(len(by_file), dtype=bool)
-        if len(by_file) > 1:
-            same_group[1:] = (
-                (by_file["player"].to_numpy()[1:] == by_file["player"].to_numpy()[:-1])
-                & (by_file["session"].to_numpy()[1:] == by_file["session"].to_numpy()[:-1])
-            )
+    if keys and len(frame):
+        by_file = frame.sort_values(check_keys + ["_position"], kind="stable")
+        same_group = _same_as_previous(by_file, check_keys)
         backwards = np.zeros(len(by_file), dtype=bool)
         equal = same_group.copy()
         decided = np.zeros(len(by_file), dtype=bool)
         for key in keys:
-            values = by_file[key].to_numpy()
-            if np.issubdtype(values.dtype, np.datetime64):
-                values = values.astype("datetime64[us]").astype(np.int64).astype(float)
-            values = values.astype(float)
-            previous = np.empty_like(values)
-            previous[0] = np.nan
+            values = by_file[key]
+            if pd.api.types.is_datetime64_any_dtype(values.dtype):
+                stamps = values.to_numpy(dtype="datetime64[us]")
+                values = np.where(np.isnat(stamps), np.nan, stamps.astype(np.int64).astype(float))
+            else:
+                values = values.to_numpy(dtype=float, na_value=np.nan)
+            previous = np.full_like(values, np.nan)
             previous[1:] = values[:-1]
             less = (values < previous) & same_group & ~decided
             more = (values > previous) & same_group & ~decided
@@ -165,7 +165,8 @@ def assign_sessions(frame: pd.DataFrame, profile: Profile, problems: RowProblems
             messages = np.empty(len(frame), dtype=object)
             for i in np.flatnonzero(equal):
                 mask[positions[i]] = True
-                messages[positions[i]] = f"duplicate attempt: same player, session and {order} as row {rows[positions[i - 1]]}"
+                where = "game" if "game" in check_keys else "session"
+                messages[positions[i]] = f"duplicate attempt: same player, {where} and {order} as row {rows[positions[i - 1]]}"
             problems.add(mask, profile.columns.get(order), messages)
     if split == "gap" and "_session" not in frame:
         elapsed = _elapsed(frame, profile, order, path)
@@ -177,6 +178,34 @@ def assign_sessions(frame: pd.DataFrame, profile: Profile, problems: RowProblems
         frame["session"] = (frame["session"] + "/S" + ordered["_part"].reindex(frame.index).astype("string")).astype("string")
 
     return frame
+
+
+def _same_as_previous(frame: pd.DataFrame, keys: list[str]) -> np.ndarray:
+    """True where a row has the same values of ``keys`` as the row before (missing never matches)."""
+    same = np.zeros(len(frame), dtype=bool)
+    if len(frame) < 2:
+        return same
+    same[1:] = True
+    for key in keys:
+        codes, _ = pd.factorize(frame[key], use_na_sentinel=True)
+        same[1:] &= (codes[1:] == codes[:-1]) & (codes[1:] >= 0)
+    return same
+
+
+def _game_rank(frame: pd.DataFrame) -> np.ndarray:
+    """Order of each row's game in the season: by date, then game number, then first appearance."""
+    firsts = frame.groupby("game", sort=False, dropna=False)["_position"].transform("min")
+    table = pd.DataFrame({"first": firsts.to_numpy()})
+    order = ["first"]
+    if "game_order" in frame:
+        table.insert(0, "game_order", frame["game_order"].to_numpy(dtype=float, na_value=np.nan))
+        order.insert(0, "game_order")
+    if "game_date" in frame:
+        table.insert(0, "game_date", frame["game_date"].to_numpy())
+        order.insert(0, "game_date")
+    ranked = table.drop_duplicates().sort_values(order, kind="stable", na_position="last")
+    ranked["rank"] = np.arange(len(ranked))
+    return table.merge(ranked, on=list(table.columns), how="left")["rank"].to_numpy()
 
 
 def _describe(frame: pd.DataFrame, position: int, order: str) -> str:
@@ -198,6 +227,8 @@ def number_attempts(frame: pd.DataFrame, profile: Profile, path: str) -> pd.Data
     """Sort by (player, session, order key, file position) and number ``seq``."""
     order = resolve_order(profile, frame)
     keys = order_key_columns(order, frame, profile, path) if order != "file" else []
+    if "_game_rank" in frame:
+        keys = ["_game_rank"] + keys
     ordered = frame.sort_values(["player", "session"] + keys + ["_position"], kind="stable")
     ordered["seq"] = ordered.groupby(["player", "session"], sort=False).cumcount().astype(np.int64)
     return ordered
