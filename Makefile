@@ -25,6 +25,7 @@ test: install
 
 bench: install
 	$(PY) benchmarks/ingest_benchmark.py
+	$(PY) benchmarks/odds_benchmark.py
 
 clean:
 	rm -rf $(VENV) build *.egg-info .pytest_cache $(STORE_DIR)
