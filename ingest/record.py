@@ -132,7 +132,7 @@ def validate_record(frame: pd.DataFrame, *, path: str = "<record>") -> pd.DataFr
             except (TypeError, ValueError) as exc:
                 raise InputError(f"cannot hold dtype {dtype}: {exc}", path=path, column=name) from exc
         else:
-            out[name] = pd.Series(pd.array([None] * n, dtype=dtype) if dtype != "bool" else [False] * n, dtype=dtype)
+            out[name] = _missing_column(dtype, n)
     result = pd.DataFrame(out, index=pd.RangeIndex(n))
 
     rows = result["source_row"].to_numpy() if n else []
@@ -160,6 +160,18 @@ def validate_record(frame: pd.DataFrame, *, path: str = "<record>") -> pd.DataFr
         if problems:
             raise InputError(problems=problems)
     return result
+
+
+def _missing_column(dtype: str, n: int) -> pd.Series:
+    """An all-missing column of ``dtype`` (a scalar broadcast: no per-row objects)."""
+    index = pd.RangeIndex(n)
+    if dtype == "bool":
+        return pd.Series(np.zeros(n, dtype=bool), index=index)
+    if dtype.startswith("datetime64"):
+        return pd.Series(np.full(n, np.datetime64("NaT"), dtype=dtype), index=index)
+    if dtype == "float64":
+        return pd.Series(np.full(n, np.nan), index=index)
+    return pd.Series(pd.NA, index=index, dtype=dtype)
 
 
 def _first_bad_seq(frame: pd.DataFrame) -> int | None:
