@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import hashlib
 import importlib.metadata
+import json
 import os
 import pathlib
 import re
@@ -869,6 +870,46 @@ class Store:
             rows = self._all("SELECT source_id, content_sha256 FROM sources ORDER BY source_id")
         digest = hashlib.sha256("".join(f"{sid}:{sha}\n" for sid, sha in rows).encode()).hexdigest()
         return f"{counter}-{digest[:16]}"
+
+    def save_result(self, kind: str, settings: dict, payload: dict) -> str:
+        """Save a result keyed by its kind, the data version and ``settings``.
+
+        ``settings`` must hold everything that decides the result (filters,
+        permutations, seed, ...); the key is a hash of the kind, the current
+        :meth:`data_version` and the settings, so a result saved for older
+        data is never read back for newer data.  Saving the same key again
+        replaces it.  Returns the key.
+        """
+        if self.read_only:
+            raise InputError("the store was opened read-only; cannot save a result", path=str(self.path))
+        key = self.result_key(kind, settings)
+        settings_text = json.dumps(settings, sort_keys=True, default=str)
+        payload_text = json.dumps(payload, sort_keys=False, default=str, allow_nan=False)
+        with self._lock:
+            self._all("BEGIN TRANSACTION")
+            try:
+                self._all("DELETE FROM results WHERE key = ?", [key])
+                self._all(
+                    "INSERT INTO results VALUES (?, ?, ?, ?, ?)",
+                    [key, kind, datetime.now(UTC).replace(tzinfo=None), settings_text, payload_text],
+                )
+                self._all("COMMIT")
+            except BaseException:
+                self._rollback()
+                raise
+        return key
+
+    def result_key(self, kind: str, settings: dict) -> str:
+        """The key :meth:`save_result` would use for ``kind`` and ``settings`` now."""
+        text = json.dumps({"kind": kind, "data_version": self.data_version(), "settings": settings}, sort_keys=True, default=str)
+        return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+    def load_result(self, kind: str, settings: dict) -> dict | None:
+        """The payload saved for ``kind`` and ``settings`` on the current data, or None."""
+        key = self.result_key(kind, settings)
+        with self._lock:
+            row = self._one("SELECT payload FROM results WHERE key = ?", [key])
+        return None if row is None else json.loads(row[0])
 
     def table_names(self) -> tuple[str, ...]:
         """Return the names of the tables :meth:`export` can write."""
