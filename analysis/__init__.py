@@ -28,7 +28,7 @@ from .odds import (
     run_probability_per_attempt,
     window_probability,
 )
-from .figures import null_distribution_figure, rates_figure
+from .figures import OKABE_ITO, null_distribution_figure, rates_figure
 from .league import benjamini_hochberg, league_scan
 from .permutation import HOT_DIRECTION, arrangement_count, permutation_test, player_seed_sequence
 from .results import (
@@ -73,6 +73,7 @@ __all__ = [
     "LongestRunOddsResult",
     "MarkovDraw",
     "MarkovMoments",
+    "OKABE_ITO",
     "OpportunityResult",
     "OutcomeDependentDraw",
     "PlayerScanResult",

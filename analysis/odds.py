@@ -48,6 +48,8 @@ import numpy as np
 import pandas as pd
 from scipy import signal, sparse, stats
 
+from .figures import OKABE_ITO
+
 __all__ = [
     "EXACT_DISTRIBUTION_MAX_ATTEMPTS",
     "EXACT_MAX_ATTEMPTS",
@@ -107,17 +109,6 @@ _TAIL_CUTOFF = 1e-17
 #: Unit roundoff of IEEE double precision.
 _UNIT = 2.0**-53
 
-#: The Okabe-Ito colour-blind-safe palette.
-OKABE_ITO = {
-    "orange": "#E69F00",
-    "sky_blue": "#56B4E9",
-    "bluish_green": "#009E73",
-    "yellow": "#F0E442",
-    "blue": "#0072B2",
-    "vermillion": "#D55E00",
-    "reddish_purple": "#CC79A7",
-    "black": "#000000",
-}
 
 
 # ---------------------------------------------------------------------------
