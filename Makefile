@@ -26,6 +26,8 @@ test: install
 bench: install
 	$(PY) benchmarks/ingest_benchmark.py
 	$(PY) benchmarks/odds_benchmark.py
+	$(PY) benchmarks/stats_benchmark.py
+	$(PY) benchmarks/plan_benchmark.py
 
 clean:
 	rm -rf $(VENV) build *.egg-info .pytest_cache $(STORE_DIR)

@@ -3,7 +3,8 @@
 Modules: ``sequences`` (tidy attempts to per-session arrays), ``simulate``
 and ``difficulty_sim`` (streak models and difficulty sampling, shared by the
 demo league and the planner), ``odds`` (exact streak probabilities) and
-``claims`` (checking a streak claim against chance), ``streaks`` (rates after
+``claims`` (checking a streak claim against chance), ``power`` (the study
+planner: power of each test, minimum detectable effect, games needed), ``streaks`` (rates after
 k makes or misses, runs, longest run, lag-1 correlation on batches),
 ``permutation`` (the within-session permutation engine), ``runs``
 (Wald–Wolfowitz and longest-run distributions), ``league`` (scans with
@@ -31,6 +32,16 @@ from .odds import (
 from .figures import OKABE_ITO, null_distribution_figure, rates_figure
 from .league import benjamini_hochberg, league_scan
 from .permutation import HOT_DIRECTION, arrangement_count, permutation_test, player_seed_sequence
+from .power import (
+    PLAN_CAVEATS,
+    PlanAnswer,
+    PlanResult,
+    PowerResult,
+    estimate_power,
+    games_needed,
+    minimum_detectable_effect,
+    power_curve_figure,
+)
 from .results import (
     CAVEATS,
     ConditionalRates,
@@ -76,8 +87,12 @@ __all__ = [
     "OKABE_ITO",
     "OpportunityResult",
     "OutcomeDependentDraw",
+    "PLAN_CAVEATS",
+    "PlanAnswer",
+    "PlanResult",
     "PlayerScanResult",
     "PlayerSequences",
+    "PowerResult",
     "RunProbabilityResult",
     "RunsTestResult",
     "SerialCorrelationResult",
@@ -94,9 +109,11 @@ __all__ = [
     "combine_sessions",
     "conditional_rates",
     "count_runs",
+    "estimate_power",
     "expected_attempts_until_run",
     "expected_run_count",
     "expected_window_count",
+    "games_needed",
     "hidden_state_moments",
     "lag1_correlation",
     "league_scan",
@@ -106,10 +123,12 @@ __all__ = [
     "longest_run_odds",
     "make_probability",
     "markov_moments",
+    "minimum_detectable_effect",
     "null_distribution_figure",
     "permutation_test",
     "player_seed_sequence",
     "player_sequences",
+    "power_curve_figure",
     "rates_figure",
     "run_probability",
     "run_probability_given_makes",
