@@ -14,10 +14,11 @@ $(VENV)/.installed: pyproject.toml
 
 install: $(VENV)/.installed
 
-# The main job: build the invented demo league into $(STORE_DIR)/ and list its players.
+# The main job: build the invented demo league into $(STORE_DIR)/ and open the
+# dashboard on it (the address is printed; Ctrl+C stops the server).
 run: install
 	$(VENV)/bin/streakwise demo --out $(STORE_DIR)
-	$(VENV)/bin/streakwise players --store $(STORE_DIR)/streakwise.duckdb --attempt-type field_goal
+	$(VENV)/bin/streakwise serve --store $(STORE_DIR)/streakwise.duckdb
 
 # The whole test suite (STREAKWISE_REQUIRE_ALL_TESTS=1 makes a skipped test fail the run).
 test: install
@@ -28,6 +29,8 @@ bench: install
 	$(PY) benchmarks/odds_benchmark.py
 	$(PY) benchmarks/stats_benchmark.py
 	$(PY) benchmarks/plan_benchmark.py
+	$(PY) benchmarks/hotstate_benchmark.py
+	$(PY) benchmarks/dashboard_benchmark.py --quick
 
 clean:
 	rm -rf $(VENV) build *.egg-info .pytest_cache $(STORE_DIR)

@@ -4,14 +4,29 @@ Modules: ``sequences`` (tidy attempts to per-session arrays), ``simulate``
 and ``difficulty_sim`` (streak models and difficulty sampling, shared by the
 demo league and the planner), ``odds`` (exact streak probabilities) and
 ``claims`` (checking a streak claim against chance), ``power`` (the study
-planner: power of each test, minimum detectable effect, games needed), ``streaks`` (rates after
+planner: power of each test, minimum detectable effect, games needed),
+``difficulty`` (shot-difficulty model), ``conditional`` (conditional Bernoulli
+sampling), ``adjusted`` (difficulty-adjusted tests and the shot-selection
+check), ``hotstate`` (two-state hidden Markov model), ``shrinkage``
+(empirical Bayes), ``streaks`` (rates after
 k makes or misses, runs, longest run, lag-1 correlation on batches),
 ``permutation`` (the within-session permutation engine), ``runs``
 (Wald–Wolfowitz and longest-run distributions), ``league`` (scans with
 Benjamini–Hochberg q-values and a pooled test), ``results`` and ``figures``.
 """
 
+from .adjusted import (
+    AdjustedTestResult,
+    PlayerAttempts,
+    ResidualTest,
+    ShotSelectionTest,
+    StreakCoefficient,
+    difficulty_adjusted_test,
+    player_attempts,
+)
 from .claims import ClaimResult, check_game_streak_claim, check_run_claim, check_window_claim
+from .conditional import conditional_inclusion_probabilities, player_generator, sample_conditional_bernoulli
+from .difficulty import DifficultyModelResult, DifficultyModelWarning, fit_difficulty_model
 from .difficulty_sim import DifficultyModel, OutcomeDependentDraw, ShotCovariates, sample_shot_covariates, simulate_outcome_dependent
 from .odds import (
     LongestRunOddsResult,
@@ -30,6 +45,7 @@ from .odds import (
     window_probability,
 )
 from .figures import OKABE_ITO, null_distribution_figure, rates_figure
+from .hotstate import HotStateResult, fit_hot_state, hot_state_posterior
 from .league import benjamini_hochberg, league_scan
 from .permutation import HOT_DIRECTION, arrangement_count, permutation_test, player_seed_sequence
 from .power import (
@@ -56,6 +72,7 @@ from .results import (
 )
 from .runs import longest_run_distribution, runs_distribution, runs_moments, runs_test, serial_correlation
 from .sequences import PlayerSequences, player_sequences, session_arrays
+from .shrinkage import ShrinkageResult, shrink_effects
 from .streaks import conditional_rates, count_runs, lag1_correlation, longest_run, streak_counts
 from .simulate import (
     HiddenStateDraw,
@@ -72,13 +89,17 @@ from .simulate import (
 )
 
 __all__ = [
+    "AdjustedTestResult",
     "CAVEATS",
     "ClaimResult",
     "ConditionalRates",
     "DifficultyModel",
+    "DifficultyModelResult",
+    "DifficultyModelWarning",
     "HOT_DIRECTION",
     "HiddenStateDraw",
     "HiddenStateMoments",
+    "HotStateResult",
     "LeagueScanResult",
     "LeagueTestResult",
     "LongestRunOddsResult",
@@ -90,14 +111,19 @@ __all__ = [
     "PLAN_CAVEATS",
     "PlanAnswer",
     "PlanResult",
+    "PlayerAttempts",
     "PlayerScanResult",
     "PlayerSequences",
     "PowerResult",
+    "ResidualTest",
     "RunProbabilityResult",
     "RunsTestResult",
     "SerialCorrelationResult",
     "ShotCovariates",
+    "ShotSelectionTest",
+    "ShrinkageResult",
     "StatisticTest",
+    "StreakCoefficient",
     "StreakCounts",
     "StreakTestResult",
     "WindowProbabilityResult",
@@ -107,14 +133,19 @@ __all__ = [
     "check_run_claim",
     "check_window_claim",
     "combine_sessions",
+    "conditional_inclusion_probabilities",
     "conditional_rates",
     "count_runs",
+    "difficulty_adjusted_test",
     "estimate_power",
     "expected_attempts_until_run",
     "expected_run_count",
     "expected_window_count",
+    "fit_difficulty_model",
+    "fit_hot_state",
     "games_needed",
     "hidden_state_moments",
+    "hot_state_posterior",
     "lag1_correlation",
     "league_scan",
     "longest_run",
@@ -126,6 +157,8 @@ __all__ = [
     "minimum_detectable_effect",
     "null_distribution_figure",
     "permutation_test",
+    "player_attempts",
+    "player_generator",
     "player_seed_sequence",
     "player_sequences",
     "power_curve_figure",
@@ -136,9 +169,11 @@ __all__ = [
     "runs_distribution",
     "runs_moments",
     "runs_test",
+    "sample_conditional_bernoulli",
     "sample_shot_covariates",
     "serial_correlation",
     "session_arrays",
+    "shrink_effects",
     "simulate_bernoulli",
     "simulate_hidden_state",
     "simulate_markov",

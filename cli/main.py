@@ -13,7 +13,7 @@ from collections.abc import Sequence
 
 from streakwise.ingest.errors import InputError, StoreInUseError
 
-from . import analyse_commands, data_commands, demo_commands, odds_commands, plan_commands, report_commands
+from . import analyse_commands, data_commands, demo_commands, odds_commands, plan_commands, report_commands, serve_commands, states_commands
 
 __all__ = ["EXIT_BAD_INPUT", "EXIT_INTERNAL", "EXIT_OK", "build_parser", "main"]
 
@@ -21,7 +21,7 @@ EXIT_OK = 0
 EXIT_INTERNAL = 1
 EXIT_BAD_INPUT = 2
 
-_COMMAND_GROUPS = (data_commands, analyse_commands, demo_commands, odds_commands, plan_commands, report_commands)
+_COMMAND_GROUPS = (data_commands, analyse_commands, demo_commands, odds_commands, plan_commands, report_commands, serve_commands, states_commands)
 
 
 class _Parser(argparse.ArgumentParser):
