@@ -47,11 +47,13 @@ from .conditional import (
 
 __all__ = [
     "AdjustedTestResult",
+    "DifficultyScanResult",
     "PlayerAttempts",
     "ResidualTest",
     "ShotSelectionTest",
     "StreakCoefficient",
     "difficulty_adjusted_test",
+    "difficulty_scan",
     "player_attempts",
 ]
 
@@ -954,3 +956,132 @@ def _shot_selection(x, p, distance, offsets, position, k, permutations, rng, bat
         distance_p_value=distance_p,
     )
 
+
+
+@dataclass(frozen=True)
+class DifficultyScanResult:
+    """Difficulty-adjusted tests for many players on one fitted difficulty model.
+
+    Attributes
+    ----------
+    model : DifficultyModelResult
+        The difficulty model, fitted on every player of the frame.
+    players : dict
+        ``{player: AdjustedTestResult}`` for the players tested.
+    shrunk : dict
+        ``{k: ShrinkageResult}``: each player's adjusted corrected effect
+        pulled towards the league's spread of effects.
+    skipped : dict
+        ``{player: reason}``.
+    seed : int
+    """
+
+    model: object
+    players: dict
+    shrunk: dict
+    skipped: dict
+    seed: int
+
+    def player_dict(self, player):
+        """The JSON blocks of ``streakwise analyse --difficulty`` for one player."""
+        result = self.players[player]
+        tests = result.to_dict()
+        shrunk = []
+        for k, shrinkage in sorted(self.shrunk.items()):
+            names = list(shrinkage.players)
+            if player in names:
+                i = names.index(player)
+                shrunk.append({"k": k, "estimate": float(shrinkage.shrunk[i]),
+                               "interval": [float(shrinkage.interval_low[i]), float(shrinkage.interval_high[i])],
+                               "reason": None})
+            else:
+                shrunk.append({"k": k, "estimate": None, "interval": None,
+                               "reason": "the adjusted effect is undefined for this player"})
+        return {
+            "difficulty_adjusted": [
+                {key: entry.get(key) for key in ("k", "difference", "null_mean", "corrected", "p_value", "reason")}
+                for entry in tests["difficulty_adjusted"]
+            ],
+            "streak_coefficient": tests["streak_coefficient"],
+            "shot_selection": tests["shot_selection"],
+            "shrunk": shrunk,
+            "difficulty_warnings": list(result.warnings),
+        }
+
+    def model_dict(self):
+        """Fit quality of the difficulty model, for the scan's JSON."""
+        model = self.model
+        return {
+            "covariates": list(getattr(model, "covariates", ()) or ()),
+            "log_loss": _number(getattr(model, "log_loss", None)),
+            "base_log_loss": _number(getattr(model, "base_log_loss", None)),
+            "warnings": list(getattr(model, "warnings", ()) or ()),
+        }
+
+
+def difficulty_scan(frame, *, players=None, min_attempts=100, max_k=3, draws=1000, permutations=1000, rng=None,
+                    progress=None):
+    """Fit the difficulty model on every player of ``frame``, then test each player.
+
+    Parameters
+    ----------
+    frame : DataFrame
+        Canonical attempts of one attempt type, all players (the model is
+        fitted on all of them, streak state excluded).
+    players : iterable of str, optional
+        Players to test (default: every player with ``min_attempts``).
+    min_attempts, max_k, draws, permutations : int
+        As :func:`difficulty_adjusted_test`; players with fewer attempts are
+        skipped with a reason.
+    rng : int
+        Seed; each player's streams derive from (seed, player id).
+    progress : callable, optional
+        Called with the number of players done.
+
+    Returns
+    -------
+    DifficultyScanResult
+
+    Notes
+    -----
+    Shrinkage pools, for each k, the players' adjusted corrected effects
+    (observed minus the conditional-resampling null mean) with the null's
+    standard deviation as their standard error
+    (:func:`~streakwise.analysis.shrinkage.shrink_effects`, REML).
+    """
+    from .difficulty import fit_difficulty_model
+    from .shrinkage import shrink_effects
+
+    if rng is None or isinstance(rng, np.random.Generator):
+        raise ValueError("`rng` must be an integer seed so each player's stream is reproducible (got "
+                         f"{type(rng).__name__})")
+    seed = int(rng)
+    model = fit_difficulty_model(frame)
+    counts = frame.groupby("player", observed=True).size()
+    chosen = sorted(map(str, players)) if players is not None else sorted(map(str, counts.index))
+    results, skipped = {}, {}
+    for done, player in enumerate(chosen, start=1):
+        n = int(counts.get(player, 0))
+        if n < min_attempts:
+            skipped[player] = f"{n} attempts, fewer than the minimum of {min_attempts}"
+        else:
+            attempts = player_attempts(frame, player, model)
+            results[player] = difficulty_adjusted_test(
+                attempts.made, attempts.probability, attempts.offsets, games=attempts.games,
+                distance=attempts.distance, player=player, max_k=max_k, draws=draws,
+                permutations=permutations, rng=seed,
+            )
+        if progress is not None:
+            progress(done)
+    shrunk = {}
+    for k in range(1, max_k + 1):
+        names, estimates, ses = [], [], []
+        for player, result in results.items():
+            test = result.residual_test(k)
+            if test.corrected is not None and test.se is not None and np.isfinite(test.corrected) and test.se > 0:
+                names.append(player)
+                estimates.append(test.corrected)
+                ses.append(test.se)
+        if len(names) >= 3:
+            shrunk[k] = shrink_effects(np.asarray(estimates), np.asarray(ses), names)
+    return DifficultyScanResult(model=model, players=results, shrunk=shrunk, skipped=skipped, seed=seed)
