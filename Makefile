@@ -31,6 +31,7 @@ bench: install
 	$(PY) benchmarks/plan_benchmark.py
 	$(PY) benchmarks/hotstate_benchmark.py
 	$(PY) benchmarks/dashboard_benchmark.py --quick
+	$(PY) benchmarks/scale_benchmark.py
 
 clean:
 	rm -rf $(VENV) build *.egg-info .pytest_cache $(STORE_DIR)

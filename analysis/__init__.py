@@ -8,7 +8,8 @@ planner: power of each test, minimum detectable effect, games needed),
 ``difficulty`` (shot-difficulty model), ``conditional`` (conditional Bernoulli
 sampling), ``adjusted`` (difficulty-adjusted tests and the shot-selection
 check), ``hotstate`` (two-state hidden Markov model), ``shrinkage``
-(empirical Bayes), ``streaks`` (rates after
+(empirical Bayes), ``executors`` (per-player tasks in this process, on a local
+pool or on a Dask cluster, results in order and independent of the workers), ``streaks`` (rates after
 k makes or misses, runs, longest run, lag-1 correlation on batches),
 ``permutation`` (the within-session permutation engine), ``runs``
 (Wald–Wolfowitz and longest-run distributions), ``league`` (scans with
@@ -44,6 +45,7 @@ from .odds import (
     run_probability_per_attempt,
     window_probability,
 )
+from .executors import ExecutorSpec, WorkerLostError, decode_task_output, encode_task_output, map_tasks, usable_cores
 from .figures import OKABE_ITO, null_distribution_figure, rates_figure
 from .hotstate import HotStateResult, fit_hot_state, hot_state_posterior
 from .league import benjamini_hochberg, league_scan
@@ -96,6 +98,7 @@ __all__ = [
     "DifficultyModel",
     "DifficultyModelResult",
     "DifficultyModelWarning",
+    "ExecutorSpec",
     "HOT_DIRECTION",
     "HiddenStateDraw",
     "HiddenStateMoments",
@@ -127,6 +130,7 @@ __all__ = [
     "StreakCounts",
     "StreakTestResult",
     "WindowProbabilityResult",
+    "WorkerLostError",
     "arrangement_count",
     "benjamini_hochberg",
     "check_game_streak_claim",
@@ -136,7 +140,9 @@ __all__ = [
     "conditional_inclusion_probabilities",
     "conditional_rates",
     "count_runs",
+    "decode_task_output",
     "difficulty_adjusted_test",
+    "encode_task_output",
     "estimate_power",
     "expected_attempts_until_run",
     "expected_run_count",
@@ -153,6 +159,7 @@ __all__ = [
     "longest_run_figure",
     "longest_run_odds",
     "make_probability",
+    "map_tasks",
     "markov_moments",
     "minimum_detectable_effect",
     "null_distribution_figure",
@@ -180,5 +187,6 @@ __all__ = [
     "simulate_outcome_dependent",
     "simulate_session_lengths",
     "streak_counts",
+    "usable_cores",
     "window_probability",
 ]

@@ -9,6 +9,11 @@ scan ran serially or on a process pool, and whoever else was scanned. Then:
 - a pooled league test per k: the mean over players of the corrected D_k, with
   its null from the same within-session permutations of every player, drawn
   jointly (draw j of the league null is the mean of every player's draw j).
+
+Players run as tasks through :func:`~streakwise.analysis.executors.map_tasks`:
+in this process, on a local process pool or on a Dask cluster, with the same
+results. Each finished player can be handed to the caller (``on_player``) to
+keep, and a later call given those (``completed``) runs only the others.
 """
 
 from __future__ import annotations
@@ -16,13 +21,15 @@ from __future__ import annotations
 import math
 import numbers
 from collections.abc import Callable, Mapping, Sequence
-from concurrent.futures import Executor, ProcessPoolExecutor, as_completed
+from concurrent.futures import Executor
+from functools import partial
 
 import numpy as np
 from statsmodels.stats.multitest import multipletests
 
+from .executors import ExecutorSpec, map_tasks
 from .permutation import _p_values, _quantiles, _run_test, _statistic_keys
-from .results import LeagueScanResult, LeagueTestResult, PlayerScanResult
+from .results import LeagueScanResult, LeagueTestResult, PlayerScanResult, StreakTestResult
 from .runs import _pick
 from .sequences import PlayerSequences
 from .streaks import _check_choice, _check_integer, _max_k_iv, _show
@@ -30,6 +37,10 @@ from .streaks import _check_choice, _check_integer, _max_k_iv, _show
 __all__ = ["benjamini_hochberg", "league_scan"]
 
 ALTERNATIVES = ("hot", "cold", "two-sided")
+
+#: Smallest task, in attempts x (permutations + resamples): about 15 ms of work,
+#: so that players with few attempts share a task and the per-task cost stays small.
+TASK_WEIGHT = 5_000_000
 
 
 def _benjamini_hochberg_iv(p_values):
@@ -133,7 +144,8 @@ def _pooled_test(k, results, nulls, alternative):
 
 
 def _league_scan_iv(players, min_attempts, max_k, permutations, alternative, rng, batch,
-                    confidence_level, resamples, workers, executor, progress):
+                    confidence_level, resamples, workers, executor, cluster, progress, completed,
+                    on_player):
     if isinstance(players, Mapping):
         players = list(players.values())
     if not isinstance(players, Sequence) and not hasattr(players, "__iter__"):
@@ -166,14 +178,42 @@ def _league_scan_iv(players, min_attempts, max_k, permutations, alternative, rng
         raise ValueError(f"`executor` must be a concurrent.futures.Executor or None (got {_show(executor)})")
     if progress is not None and not callable(progress):
         raise ValueError(f"`progress` must be callable or None (got {_show(progress)})")
+    if on_player is not None and not callable(on_player):
+        raise ValueError(f"`on_player` must be callable or None (got {_show(on_player)})")
+    spec = ExecutorSpec(workers=workers, cluster=cluster, executor=executor)
     seed = np.random.SeedSequence().entropy if rng is None else int(rng)
+    if completed is not None and not isinstance(completed, Mapping):
+        raise ValueError(f"`completed` must be a mapping of player id to a finished player (got {_show(completed)})")
     return (players, min_attempts, max_k, permutations, alternative, seed, batch,
-            float(confidence_level), resamples, workers, executor, progress)
+            float(confidence_level), resamples, spec, progress, dict(completed or {}), on_player)
+
+
+def _completed_iv(completed, eligible, settings):
+    """Check that every finished player handed in is a player of this scan, with its settings."""
+    by_id = {p.player: p for p in eligible}
+    expected = {name: settings[name] for name in ("max_k", "permutations", "alternative", "seed", "batch",
+                                                  "confidence_level", "resamples")}
+    for player, part in completed.items():
+        if player not in by_id:
+            raise ValueError(f"`completed` holds player {player!r}, who is not among the players to test")
+        result, null = part if isinstance(part, tuple) and len(part) == 2 else (None, None)
+        if not isinstance(result, StreakTestResult) or not isinstance(null, np.ndarray):
+            raise ValueError(f"`completed` must map player ids to what `on_player` was given "
+                             f"(got {_show(part)} for {player!r})")
+        found = {name: getattr(result, name) for name in expected}
+        sequences = by_id[player]
+        if (found != expected or result.method != "random" or result.player != player
+                or (result.attempts, result.sessions) != (sequences.attempts, len(sequences))
+                or null.shape != (settings["permutations"], settings["max_k"])):
+            raise ValueError(f"`completed` holds a result for player {player!r} from another scan "
+                             f"(its settings {found}, this scan's {expected})")
 
 
 def league_scan(players, *, min_attempts=100, max_k=3, permutations=10_000, alternative="hot",
                 rng=None, batch=4096, confidence_level=0.95, resamples=2000, workers=1,
-                executor=None, progress: Callable[[int], object] | None = None):
+                executor=None, cluster=None, progress: Callable[[int], object] | None = None,
+                completed: Mapping[str, tuple] | None = None,
+                on_player: Callable[[str, tuple], object] | None = None):
     r"""Test every player of a league, with q-values and a pooled league test.
 
     Parameters
@@ -194,13 +234,26 @@ def league_scan(players, *, min_attempts=100, max_k=3, permutations=10_000, alte
     batch, confidence_level, resamples : optional
         Passed to every player's test.
     workers : int, optional
-        Processes to spread the players over (default 1: in this process).
-        Results are identical for any number of workers.
+        Local processes to spread the players over (default 1: in this
+        process). Results are identical for any number of workers.
     executor : concurrent.futures.Executor, optional
         Run the players on this executor instead (it is not shut down).
+    cluster : str or distributed.Client, optional
+        Run the players on this Dask scheduler (``"tcp://HOST:PORT"``) or
+        client instead. A worker lost mid-scan loses no player: its tasks
+        run again (see :func:`~streakwise.analysis.executors.map_tasks`).
     progress : callable, optional
-        Called with the number of players done so far (skipped players count as
-        done, so it ends at ``len(players)``).
+        Called with the number of players done so far (skipped and
+        ``completed`` players count as done, so it ends at ``len(players)``).
+    completed : mapping, optional
+        Players already tested by an interrupted run of the same scan: player
+        id to what ``on_player`` was given. They are not run again, and the
+        result is the same as an uninterrupted run's.
+    on_player : callable, optional
+        Called in this process with ``(player id, finished player)`` as each
+        player's test arrives, before ``progress``: keep it to resume
+        later (:func:`~streakwise.analysis.executors.encode_task_output`
+        turns it into JSON-ready data).
 
     Returns
     -------
@@ -251,38 +304,26 @@ def league_scan(players, *, min_attempts=100, max_k=3, permutations=10_000, alte
     (['a', 'b'], [1, 2])
     """
     (players, min_attempts, max_k, permutations, alternative, seed, batch, confidence_level,
-     resamples, workers, executor, progress) = _league_scan_iv(
+     resamples, spec, progress, completed, on_player) = _league_scan_iv(
         players, min_attempts, max_k, permutations, alternative, rng, batch, confidence_level,
-        resamples, workers, executor, progress)
+        resamples, workers, executor, cluster, progress, completed, on_player)
     settings = dict(max_k=max_k, permutations=permutations, alternative=alternative, seed=seed,
                     batch=batch, confidence_level=confidence_level, resamples=resamples)
     eligible = [p for p in players if p.attempts >= min_attempts]
     skipped = tuple((p.player, f"{p.attempts} attempts, fewer than min_attempts={min_attempts}")
                     for p in players if p.attempts < min_attempts)
-    done = len(skipped)
+    _completed_iv(completed, eligible, settings)
+    done = len(skipped) + len(completed)
     if progress is not None:
         progress(done)
-    outputs = [None] * len(eligible)
-    if executor is None and workers == 1:
-        for i, sequences in enumerate(eligible):
-            outputs[i] = _scan_player(sequences, settings)
-            done += 1
-            if progress is not None:
-                progress(done)
-    else:
-        own = executor is None
-        pool = ProcessPoolExecutor(max_workers=workers) if own else executor
-        try:
-            futures = {pool.submit(_scan_player, sequences, settings): i
-                       for i, sequences in enumerate(eligible)}
-            for future in as_completed(futures):
-                outputs[futures[future]] = future.result()
-                done += 1
-                if progress is not None:
-                    progress(done)
-        finally:
-            if own:
-                pool.shutdown(cancel_futures=True)
+    todo = [p for p in eligible if p.player not in completed]
+    fresh = map_tasks(
+        partial(_scan_player, settings=settings), todo, executor_spec=spec,
+        progress=None if progress is None else (lambda count: progress(done + count)),
+        on_result=None if on_player is None else (lambda i, out: on_player(todo[i].player, out)),
+        weights=[p.attempts * (permutations + resamples) for p in todo], task_weight=TASK_WEIGHT)
+    fresh = dict(zip((p.player for p in todo), fresh))
+    outputs = [completed[p.player] if p.player in completed else fresh[p.player] for p in eligible]
     results = [out[0] for out in outputs]
     nulls = [out[1] for out in outputs]
     q_by_k = [benjamini_hochberg([r.test("difference", k).p_value for r in results])

@@ -1,11 +1,23 @@
-"""``analyse``: is each player streakier than chance? (within-game permutation tests)."""
+"""``analyse``: is each player streakier than chance? (within-game permutation tests).
+
+Players run in this process, on local worker processes (``--workers``, default
+the number of cores) or on a Dask cluster (``--cluster tcp://HOST:PORT``),
+with identical results. With ``--save`` each player's finished test is kept in
+the store as it arrives (this process writes the store; workers never open
+it), so an interrupted scan continues with ``--resume`` and the same options,
+running only the players still missing.
+"""
 
 from __future__ import annotations
 
 import argparse
+import contextlib
+import signal
 import sys
+import threading
 
 from streakwise.analysis import league_scan, player_sequences
+from streakwise.analysis.executors import ExecutorSpec, decode_task_output, encode_task_output, usable_cores
 from streakwise.ingest.errors import InputError
 from streakwise.ingest.load import load_file
 from streakwise.ingest.profiles import load_profile
@@ -18,6 +30,10 @@ from .options import add_json_option, add_store_option
 __all__ = ["register", "scan_settings"]
 
 RESULT_KIND = "league_scan"
+#: One player's finished test within a scan (settings plus ``player``), kept for ``--resume``.
+PARTIAL_KIND = "league_scan_partial"
+#: The seed of the latest scan with given settings (``seed`` None), so ``--resume`` can find it.
+RUN_KIND = "league_scan_run"
 
 
 def register(commands: argparse._SubParsersAction) -> None:
@@ -39,8 +55,17 @@ def register(commands: argparse._SubParsersAction) -> None:
     parser.add_argument("--seed", type=int, metavar="N", help="seed for every random result (default: a fresh one, printed)")
     parser.add_argument("--min-attempts", type=int, default=100, metavar="N", help="test players with at least N attempts (default 100)")
     parser.add_argument("--alternative", choices=("hot", "cold", "two-sided"), default="hot", help="direction of the test (default hot)")
-    parser.add_argument("--workers", type=int, default=1, metavar="N", help="worker processes (default 1; results do not depend on it)")
-    parser.add_argument("--save", action="store_true", help="save the scan in the store (keyed by data version, settings and seed)")
+    parser.add_argument("--workers", type=int, default=None, metavar="N",
+                        help=f"local worker processes (default: the number of cores, {usable_cores()} here; "
+                        "results do not depend on it)")
+    parser.add_argument("--cluster", metavar="tcp://HOST:PORT",
+                        help="run the players on this Dask scheduler instead of local processes (same results)")
+    parser.add_argument("--save", action="store_true",
+                        help="save the scan in the store (keyed by data version, settings and seed); each "
+                        "player is kept as it finishes, so an interrupted scan can be resumed")
+    parser.add_argument("--resume", action="store_true",
+                        help="finish an interrupted --save scan with the same options: only missing players "
+                        "run (implies --save; without --seed, the latest such scan's seed)")
     add_store_option(parser)
     add_json_option(parser)
     parser.set_defaults(run=run_analyse)
@@ -68,8 +93,19 @@ def _check_args(args: argparse.Namespace) -> None:
         raise InputError(f"--permutations must be at least 1 (got {args.permutations})", path="--permutations")
     if args.min_attempts < 1:
         raise InputError(f"--min-attempts must be at least 1 (got {args.min_attempts})", path="--min-attempts")
-    if args.workers < 1:
+    if args.workers is not None and args.workers < 1:
         raise InputError(f"--workers must be at least 1 (got {args.workers})", path="--workers")
+    if args.cluster is not None:
+        if args.workers is not None:
+            raise InputError("--workers sets local processes; with --cluster the cluster's workers run the scan",
+                             path="--workers")
+        try:
+            ExecutorSpec(cluster=args.cluster)
+        except ValueError:
+            raise InputError(f"--cluster must be a Dask scheduler address like tcp://HOST:PORT (got {args.cluster!r})",
+                             path="--cluster") from None
+    if args.input and args.resume:
+        raise InputError("--resume continues a scan saved in the store; it cannot be used with --input", path="--resume")
     if args.seed is not None and args.seed < 0:
         raise InputError(f"--seed must be a non-negative whole number (got {args.seed})", path="--seed")
     if args.input and args.save:
@@ -107,38 +143,157 @@ def _attempts(args: argparse.Namespace, store: Store | None):
     return frame, attempt_type
 
 
-def run_analyse(args: argparse.Namespace) -> int:
-    _check_args(args)
+@contextlib.contextmanager
+def _uninterrupted():
+    """Hold Ctrl-C until a store write has finished, then raise it.
+
+    The database cancels a query on Ctrl-C with an error of its own; holding
+    the signal keeps every write whole and the interruption a plain one.
+    """
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    caught = []
+    previous = signal.signal(signal.SIGINT, lambda signum, frame: caught.append(signum))
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGINT, previous)
+    if caught:
+        raise KeyboardInterrupt
+
+
+class _Checkpoint:
+    """Keeps each finished player of a scan in the store, and finds them again."""
+
+    def __init__(self, store: Store, settings: dict) -> None:
+        self.store = store
+        self.settings = settings
+        self.kept: list[str] = []
+
+    def _settings(self, player: str) -> dict:
+        return _partial_settings(self.settings, player)
+
+    def start(self) -> None:
+        """Record the seed, so that ``--resume`` without ``--seed`` finds this scan."""
+        with _uninterrupted():
+            self.store.save_result(RUN_KIND, {**self.settings, "seed": None}, {"seed": self.settings["seed"]})
+
+    def load(self, players) -> dict:
+        """The finished players of an earlier, interrupted run of this scan (unreadable ones run again)."""
+        found = {}
+        for sequences in players:
+            saved = self.store.load_result(PARTIAL_KIND, self._settings(sequences.player))
+            if saved is None or "part" not in saved:
+                continue
+            try:
+                found[sequences.player] = decode_task_output(saved["part"])
+            except (ValueError, TypeError, KeyError):
+                print(f"the kept test of player {sequences.player!r} cannot be read; it runs again", file=sys.stderr)
+        self.kept = list(found)
+        return found
+
+    def keep(self, player: str, part) -> None:
+        payload = {"player": player, "part": encode_task_output(part)}
+        with _uninterrupted():
+            self.store.save_result(PARTIAL_KIND, self._settings(player), payload)
+            self.kept.append(player)
+
+    def clear(self, key: str) -> None:
+        """Replace the kept players by a pointer to the whole scan (frees their null draws)."""
+        with _uninterrupted():
+            for player in self.kept:
+                self.store.save_result(PARTIAL_KIND, self._settings(player), {"player": player, "scan": key})
+
+
+def _partial_settings(settings: dict, player: str) -> dict:
+    """The key of one kept player: the scan's settings, the player, and the code that ran it.
+
+    The versions are part of the key so that a resumed scan never mixes tests
+    made by different releases (numpy's random streams may change too).
+    """
+    from importlib.metadata import PackageNotFoundError, version
+
     import numpy as np
 
-    seed = args.seed if args.seed is not None else int(np.random.SeedSequence().generate_state(1)[0])
-    store = None if args.input else Store(resolve_store_path(args.store), read_only=not args.save)
+    try:
+        release = version("streakwise")
+    except PackageNotFoundError:
+        release = "unknown"
+    return {**settings, "player": player, "engine": f"streakwise {release}, numpy {np.__version__}"}
+
+
+def _seed(args: argparse.Namespace, store: Store | None, attempt_type: str | None) -> int:
+    import numpy as np
+
+    if args.seed is not None:
+        return args.seed
+    if args.resume and store is not None:
+        run = store.load_result(RUN_KIND, scan_settings(args, attempt_type, None))
+        if run is not None:
+            print(f"resuming the latest scan with these options (seed {run['seed']})", file=sys.stderr)
+            return int(run["seed"])
+    return int(np.random.SeedSequence().generate_state(1)[0])
+
+
+def run_analyse(args: argparse.Namespace) -> int:
+    _check_args(args)
+    save = args.save or args.resume
+    store = None if args.input else Store(resolve_store_path(args.store), read_only=not save)
     try:
         frame, attempt_type = _attempts(args, store)
         sequences = player_sequences(frame)
         missing = sorted(set(args.player or ()) - set(sequences))
         if missing:
             raise InputError(f"no attempts for player {', '.join(map(repr, missing))}", path="--player")
+        seed = _seed(args, store, attempt_type)
         settings = scan_settings(args, attempt_type, seed)
+        players = [sequences[name] for name in sorted(sequences)]
+        checkpoint = _Checkpoint(store, settings) if store is not None and save else None
+        completed = {}
+        if checkpoint is not None:
+            if args.resume:
+                completed = checkpoint.load(p for p in players if p.attempts >= args.min_attempts)
+                print(f"resuming: {len(completed)} player(s) already tested, "
+                      f"{sum(p.attempts >= args.min_attempts for p in players) - len(completed)} to go",
+                      file=sys.stderr)
+            checkpoint.start()
+        if args.cluster:
+            print(f"running on the Dask cluster at {args.cluster}", file=sys.stderr)
         bar = _progress_bar(len(sequences))
         try:
             result = league_scan(
-                [sequences[name] for name in sorted(sequences)],
+                players,
                 min_attempts=args.min_attempts,
                 max_k=args.max_k,
                 permutations=args.permutations,
                 alternative=args.alternative,
                 rng=seed,
-                workers=args.workers,
+                workers=1 if args.cluster else (args.workers or usable_cores()),
+                cluster=args.cluster,
                 progress=None if bar is None else (lambda done: bar.update(done - bar.n)),
+                completed=completed,
+                on_player=None if checkpoint is None else checkpoint.keep,
             )
+        except KeyboardInterrupt:
+            if checkpoint is not None:
+                print(f"{len(checkpoint.kept)} player(s) kept in the store: run the same command with --resume "
+                      f"(seed {seed}) to finish the scan", file=sys.stderr)
+            elif store is not None:
+                print("nothing was kept: with --save each finished player is kept, and --resume continues",
+                      file=sys.stderr)
+            raise
+        except ConnectionError as exc:
+            raise InputError(str(exc), path="--cluster") from None
         finally:
             if bar is not None:
                 bar.close()
         payload = result.to_dict()
         payload["attempt_type"] = attempt_type
-        if store is not None and args.save:
-            key = store.save_result(RESULT_KIND, settings, payload)
+        if checkpoint is not None:
+            with _uninterrupted():
+                key = store.save_result(RESULT_KIND, settings, payload)
+            checkpoint.clear(key)
             print(f"saved the scan in {store.path} (key {key[:12]})", file=sys.stderr)
     finally:
         if store is not None:

@@ -11,6 +11,7 @@ import sys
 import traceback
 from collections.abc import Sequence
 
+from streakwise.analysis.executors import WorkerLostError
 from streakwise.ingest.errors import InputError, StoreInUseError
 
 from . import analyse_commands, data_commands, demo_commands, odds_commands, plan_commands, report_commands, serve_commands, states_commands
@@ -49,6 +50,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     except (InputError, StoreInUseError) as exc:
         print(f"error: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
+    except WorkerLostError as exc:
+        print(f"error: workers kept dying, so the scan stopped: {exc}", file=sys.stderr)
+        print("With --save, the players finished so far are kept: run the same command with --resume.", file=sys.stderr)
+        return EXIT_INTERNAL
     except KeyboardInterrupt:
         print("interrupted", file=sys.stderr)
         return 130

@@ -136,7 +136,7 @@ class TestAnalyseStore:
         import duckdb
 
         con = duckdb.connect(str(store), read_only=True)
-        assert con.execute("SELECT count(*) FROM results").fetchone()[0] == 1
+        assert con.execute("SELECT count(*) FROM results WHERE kind = 'league_scan'").fetchone()[0] == 1
         con.close()
 
     def test_filters(self, store, capsys):
