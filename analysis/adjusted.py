@@ -987,7 +987,12 @@ class DifficultyScanResult:
         result = self.players[player]
         tests = result.to_dict()
         shrunk = []
-        for k, shrinkage in sorted(self.shrunk.items()):
+        for k in [t.k for t in result.residual_tests]:
+            shrinkage = self.shrunk.get(k)
+            if shrinkage is None:
+                shrunk.append({"k": k, "estimate": None, "interval": None,
+                               "reason": "shrinkage needs at least 3 players with a defined adjusted effect"})
+                continue
             names = list(shrinkage.players)
             if player in names:
                 i = names.index(player)

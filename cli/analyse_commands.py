@@ -30,6 +30,7 @@ from .options import add_json_option, add_store_option
 __all__ = ["register", "scan_settings"]
 
 RESULT_KIND = "league_scan"
+DIFFICULTY_KIND = "difficulty_scan"
 #: One player's finished test within a scan (settings plus ``player``), kept for ``--resume``.
 PARTIAL_KIND = "league_scan_partial"
 #: The seed of the latest scan with given settings (``seed`` None), so ``--resume`` can find it.
@@ -55,6 +56,12 @@ def register(commands: argparse._SubParsersAction) -> None:
     parser.add_argument("--seed", type=int, metavar="N", help="seed for every random result (default: a fresh one, printed)")
     parser.add_argument("--min-attempts", type=int, default=100, metavar="N", help="test players with at least N attempts (default 100)")
     parser.add_argument("--alternative", choices=("hot", "cold", "two-sided"), default="hot", help="direction of the test (default hot)")
+    parser.add_argument("--difficulty", action="store_true",
+                        help="also adjust for shot difficulty: a logistic difficulty model fitted on every player of the "
+                        "attempt type, tests on makes minus expected probability with a null that keeps each game's makes, "
+                        "a streak coefficient, a shot-selection check and shrunken effects")
+    parser.add_argument("--draws", type=int, default=1000, metavar="N",
+                        help="with --difficulty: conditional resampling draws per player (default 1,000)")
     parser.add_argument("--workers", type=int, default=None, metavar="N",
                         help=f"local worker processes (default: the number of cores, {usable_cores()} here; "
                         "results do not depend on it)")
@@ -87,6 +94,8 @@ def scan_settings(args: argparse.Namespace, attempt_type: str | None, seed: int)
 
 
 def _check_args(args: argparse.Namespace) -> None:
+    if args.difficulty and args.draws < 1:
+        raise InputError(f"--draws must be at least 1 (got {args.draws})", path="--draws")
     if not 1 <= args.max_k <= 8:
         raise InputError(f"--max-k must be between 1 and 8 (got {args.max_k})", path="--max-k")
     if args.permutations < 1:
@@ -122,15 +131,17 @@ def _filter(frame, column: str, values):
     return frame[frame[column].isin(values)]
 
 
-def _attempts(args: argparse.Namespace, store: Store | None):
+def _attempts(args: argparse.Namespace, store: Store | None, *, every_player: bool = False):
+    """The attempts to analyse (``every_player``: ignore --player, for the difficulty model)."""
+    players = None if every_player else args.player
     if store is None:
         loaded = load_file(args.input, load_profile(args.profile) if args.profile else None)
         frame = loaded.attempts
-        frame = _filter(frame, "player", args.player)
+        frame = _filter(frame, "player", players)
         frame = _filter(frame, "season", args.season)
         frame = _filter(frame, "team", args.team)
     else:
-        frame = store.attempts(players=args.player, seasons=args.season, teams=args.team)
+        frame = store.attempts(players=players, seasons=args.season, teams=args.team)
     attempt_type = args.attempt_type
     if attempt_type is None:
         present = set(frame["attempt_type"].dropna().unique())
@@ -290,20 +301,112 @@ def run_analyse(args: argparse.Namespace) -> int:
                 bar.close()
         payload = result.to_dict()
         payload["attempt_type"] = attempt_type
+        adjusted = None
+        if args.difficulty:
+            model_frame = frame if not args.player else _attempts(args, store, every_player=True)[0]
+            tested = [p["player"] for p in payload["players"]]
+            adjusted = _difficulty(args, model_frame, tested, seed)
         if checkpoint is not None:
             with _uninterrupted():
                 key = store.save_result(RESULT_KIND, settings, payload)
             checkpoint.clear(key)
             print(f"saved the scan in {store.path} (key {key[:12]})", file=sys.stderr)
+            if adjusted is not None:
+                with _uninterrupted():
+                    store.save_result(DIFFICULTY_KIND, {**settings, "draws": args.draws}, _difficulty_payload(adjusted))
     finally:
         if store is not None:
             store.close()
+    if adjusted is not None:
+        payload["difficulty_model"] = adjusted.model_dict()
+        for entry in payload["players"]:
+            if entry["player"] in adjusted.players:
+                entry.update(adjusted.player_dict(entry["player"]))
     if args.json:
         print(to_json(payload))
     else:
         print(f"attempt type: {attempt_type or 'all'}")
         print(result.summary())
+        if adjusted is not None:
+            print()
+            print(_difficulty_text(adjusted))
     return 0
+
+
+def _difficulty(args: argparse.Namespace, frame, players: list[str], seed: int):
+    """Fit the difficulty model on every player and test ``players`` (a progress bar on a terminal)."""
+    import warnings
+
+    from streakwise.analysis.adjusted import difficulty_scan
+    from streakwise.analysis.difficulty import DifficultyModelWarning
+
+    bar = _progress_bar(len(players))
+    if bar is not None:
+        bar.set_description_str("adjusting for difficulty")
+    try:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", DifficultyModelWarning)
+            adjusted = difficulty_scan(
+                frame, players=players, min_attempts=args.min_attempts, max_k=args.max_k, draws=args.draws,
+                permutations=min(args.permutations, 10_000), rng=seed,
+                progress=None if bar is None else (lambda done: bar.update(done - bar.n)),
+            )
+    finally:
+        if bar is not None:
+            bar.close()
+    for warning in caught:
+        if issubclass(warning.category, DifficultyModelWarning):
+            print(f"warning: {warning.message}", file=sys.stderr)
+    return adjusted
+
+
+def _difficulty_payload(adjusted) -> dict:
+    return {"difficulty_model": adjusted.model_dict(),
+            "players": [{"player": p, **adjusted.player_dict(p)} for p in sorted(adjusted.players)]}
+
+
+def _difficulty_text(adjusted) -> str:
+    """The difficulty-adjusted results as a table (pure formatting)."""
+    from .formatting import render_table
+
+    model = adjusted.model_dict()
+    lines = [
+        "Adjusted for shot difficulty (makes minus the model's expected probability; the null resamples each game's "
+        "makes from its attempts' fitted probabilities):",
+        f"  difficulty model on {', '.join(model['covariates']) or 'no covariates'}; log loss "
+        f"{model['log_loss']:.4f} against {model['base_log_loss']:.4f} for the base rate" if model["log_loss"] is not None
+        else "  difficulty model fitted",
+    ]
+    for warning in model["warnings"]:
+        lines.append(f"  warning: {warning}")
+    rows = []
+    for player in sorted(adjusted.players):
+        block = adjusted.player_dict(player)
+        row = {"player": player}
+        for entry in block["difficulty_adjusted"]:
+            row[f"adj{entry['k']}"] = entry["corrected"]
+            row[f"p{entry['k']}"] = entry["p_value"]
+        coefficient = block["streak_coefficient"]
+        row["coef"] = coefficient.get("estimate")
+        row["coef_p"] = coefficient.get("p_value_resampled")
+        selection = block["shot_selection"]
+        row["harder"] = selection.get("difference")
+        row["harder_p"] = selection.get("p_value")
+        shrunk = block["shrunk"][0]
+        row["shrunk1"] = shrunk["estimate"]
+        rows.append(row)
+    k_values = sorted({int(key[3:]) for row in rows for key in row if key.startswith("adj")})
+    columns = [("player", "player")]
+    for k in k_values:
+        columns += [(f"adj{k}", f"adj D_{k}"), (f"p{k}", "p")]
+    columns += [("coef", "streak coef"), ("coef_p", "p (resampled)"), ("harder", "exp. p after makes - misses"),
+                ("harder_p", "p"), ("shrunk1", "shrunk adj D_1")]
+    lines.append(render_table(rows, columns))
+    flagged = [p for p in sorted(adjusted.players) if adjusted.players[p].warnings]
+    if flagged:
+        lines.append("  note: attempts after makes differ in difficulty for " + ", ".join(flagged) + "; the adjusted "
+                     "null is then only approximate and leans towards 'hot' (see DEVELOPERS.md).")
+    return "\n".join(lines)
 
 
 def _progress_bar(total: int):

@@ -162,3 +162,37 @@ class TestAnalyseStore:
         path = write_canonical(tmp_path / "c.csv")
         code, _, err = run(capsys, "analyse", "--input", str(path), "--save")
         assert code == 2 and "--save keeps a scan of the store" in err
+
+
+class TestAnalyseDifficulty:
+    def test_blocks_in_json(self, tmp_path, capsys):
+        rng = np.random.default_rng(8)
+        lines = ["player,session,seq,made,game,attempt_type,distance"]
+        for player in ("a", "b", "c", "d"):
+            for g in range(12):
+                distance = rng.uniform(2, 27, 12)
+                made = rng.random(12) < 1 / (1 + np.exp(0.05 * (distance - 15)))
+                lines += [f"{player},g{g},{s},{int(made[s])},g{g},field_goal,{distance[s]:.1f}" for s in range(12)]
+        path = tmp_path / "d.csv"
+        path.write_text("\n".join(lines) + "\n")
+        args = ("analyse", "--input", str(path), "--difficulty", "--draws", "30", "--permutations", "50", "--seed", "3",
+                "--min-attempts", "10", "--workers", "1", "--json")
+        code, out, err = run(capsys, *args)
+        assert code == 0, err
+        assert "covariates missing from the data" in err  # distance only: the model says so
+        payload = json.loads(out)
+        assert set(payload["difficulty_model"]) >= {"covariates", "log_loss", "base_log_loss", "warnings"}
+        player = payload["players"][0]
+        assert [d["k"] for d in player["difficulty_adjusted"]] == [1, 2, 3]
+        assert set(player["difficulty_adjusted"][0]) >= {"k", "difference", "null_mean", "corrected", "p_value"}
+        assert set(player["streak_coefficient"]) >= {"k", "estimate", "se", "p_value_resampled"}
+        assert set(player["shot_selection"]) >= {"k", "difference", "p_value"}
+        assert [s["k"] for s in player["shrunk"]] == [1, 2, 3]
+        assert all(set(s) >= {"k", "estimate", "interval"} for s in player["shrunk"])
+        code, again, _ = run(capsys, *args)
+        assert json.loads(again) == payload
+
+    def test_bad_draws(self, tmp_path, capsys):
+        path = write_canonical(tmp_path / "c.csv")
+        code, _, err = run(capsys, "analyse", "--input", str(path), "--difficulty", "--draws", "0")
+        assert code == 2 and "--draws must be at least 1" in err
