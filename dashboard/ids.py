@@ -8,6 +8,7 @@ kebab-case strings prefixed with their view.
 from __future__ import annotations
 
 __all__ = [
+    "COMPARE_DIFFICULTY",
     "COMPARE_EFFECTS_GRAPH",
     "COMPARE_K",
     "COMPARE_NOTE",
@@ -122,6 +123,7 @@ COMPARE_RATES_GRAPH = "compare-rates-graph"
 COMPARE_EFFECTS_GRAPH = "compare-effects-graph"
 COMPARE_TABLE = "compare-table"
 COMPARE_NOTE = "compare-note"
+COMPARE_DIFFICULTY = "compare-difficulty"
 
 # -- league ------------------------------------------------------------------
 LEAGUE_SEASON = "league-season"

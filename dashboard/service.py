@@ -28,7 +28,7 @@ from typing import Any
 import pandas as pd
 
 from streakwise.analysis import PlayerSequences, StreakTestResult, league_scan, permutation_test, player_sequences
-from streakwise.cli.analyse_commands import RESULT_KIND, scan_settings
+from streakwise.cli.analyse_commands import DIFFICULTY_KIND, RESULT_KIND, scan_settings
 from streakwise.ingest import FIELD_GOAL, InputError, Profile, Store, check_files, parse_profile, store_files
 from streakwise.ingest.pipeline import FileOutcome
 
@@ -376,6 +376,24 @@ class DashboardService:
             if payload is not None:
                 self._scans.put(key, payload)
         return ScanView(key=key, settings=settings, payload=payload, job=self.jobs.get(key))
+
+    def difficulty_scan(self, season: str | None, attempt_type: str | None) -> dict | None:
+        """The newest saved difficulty scan for these filters and the dashboard's settings, or None.
+
+        ``streakwise analyse --difficulty --save`` keys it by the league
+        scan's settings plus ``draws``, which the dashboard cannot know, so it
+        is looked up by the rest (``Store.latest_result``; only scans saved on
+        the current data count). Found scans are cached: the dashboard's own
+        process holds the store, so nothing else can save a newer one meanwhile.
+        """
+        settings = self.scan_settings(season, attempt_type)
+        key = ("difficulty", self.store.result_key(DIFFICULTY_KIND, settings))
+        payload = self._scans.get(key)
+        if payload is None:
+            payload = self.store.latest_result(DIFFICULTY_KIND, settings)
+            if payload is not None:
+                self._scans.put(key, payload)
+        return payload
 
     def shrunk_effects(self, season: str | None, attempt_type: str | None, k: int) -> dict[str, tuple[float, float, float]]:
         """Each scanned player's corrected D_k shrunk towards the league (empty until the scan is saved).

@@ -7,6 +7,7 @@ q-values), and builds the figures and table with the pure helpers below.
 
 from __future__ import annotations
 
+import shlex
 from dataclasses import dataclass
 
 import plotly.graph_objects as go
@@ -29,7 +30,6 @@ from .controls import (
     season_dropdown,
     simple_table,
     type_dropdown,
-    unavailable,
 )
 from .service import DashboardService
 from .urls import query_int, query_list, update_query
@@ -41,6 +41,9 @@ __all__ = [
     "PlayerColumn",
     "TITLE",
     "compare_columns",
+    "difficulty_command",
+    "difficulty_panel",
+    "difficulty_rows",
     "effects_figure",
     "layout",
     "rates_figure",
@@ -48,6 +51,7 @@ __all__ = [
     "table_columns",
     "table_rows",
     "update_compare",
+    "update_difficulty",
     "url_for_compare",
 ]
 
@@ -136,11 +140,8 @@ def layout(service: DashboardService, params: dict[str, str]) -> html.Div:
                 "interval, an approximation).",
                 className="sw-note",
             ),
-            unavailable(
-                "Difficulty-adjusted effects",
-                "the difficulty-adjusted test (streakwise.analysis.adjusted, on the league's shot-difficulty model) "
-                "is not wired into the dashboard yet; the effects above assume a game's attempts are equally hard.",
-            ),
+            html.H2("Adjusted for shot difficulty"),
+            html.Div(difficulty_panel(service, players, season, attempt_type, k), id=ids.COMPARE_DIFFICULTY),
         ]
     )
 
@@ -312,6 +313,96 @@ def _compare_outputs(service: DashboardService, players, season, attempt_type, k
     return rates_figure(columns, k), effects_figure(columns, k), table, " ".join(notes)
 
 
+def difficulty_command(service: DashboardService, season: str | None, attempt_type: str | None) -> str:
+    """The command that saves the difficulty scan this view reads, for the dashboard's settings."""
+    s = service.settings
+    parts = ["streakwise", "analyse", "--difficulty", "--save", "--permutations", str(s.permutations), "--seed", str(s.seed)]
+    if season:
+        parts += ["--season", season]
+    if attempt_type:
+        parts += ["--attempt-type", attempt_type]
+    for flag, value, default in (("--max-k", s.max_k, 3), ("--min-attempts", s.min_attempts, 100),
+                                 ("--alternative", s.alternative, "hot")):
+        if value != default:
+            parts += [flag, str(value)]
+    parts += ["--store", str(service.store_path)]
+    return " ".join(shlex.quote(part) for part in parts)
+
+
+def difficulty_rows(payload: dict, players, labels: dict[str, str], k: int) -> list[list[str]]:
+    """One row per chosen player from a saved difficulty scan (strings; no statistics here)."""
+    entries = {entry["player"]: entry for entry in payload.get("players", [])}
+    rows = []
+    for player in players:
+        entry = entries.get(player)
+        label = labels.get(player, player)
+        if entry is None:
+            rows.append([label, "not in the difficulty scan (too few attempts?)", "–", "–", "–", "–"])
+            continue
+        adjusted = next((a for a in entry.get("difficulty_adjusted", []) if a.get("k") == k), None)
+        corrected = None if adjusted is None else adjusted.get("corrected")
+        p_value = None if adjusted is None else adjusted.get("p_value")
+        reason = None if adjusted is None else adjusted.get("reason")
+        selection = entry.get("shot_selection") or {}
+        warnings = entry.get("difficulty_warnings") or []
+        rows.append([
+            label,
+            fmt_signed(corrected) if corrected is not None or not reason else f"– ({reason})",
+            fmt_p(p_value),
+            fmt_signed(selection.get("difference")),
+            fmt_p(selection.get("p_value")),
+            "; ".join(str(w) for w in warnings) or "–",
+        ])
+    return rows
+
+
+def difficulty_panel(service: DashboardService, players, season, attempt_type, k) -> list:
+    """The saved difficulty-adjusted effects of the chosen players, or how to produce them."""
+    season = filter_value(season)
+    k = int(k or 1)
+    players = [p for p in (players or []) if p][:MAX_PLAYERS]
+    payload = service.difficulty_scan(season, attempt_type)
+    if payload is None:
+        return [html.Div(
+            [
+                html.Strong("No saved difficulty-adjusted scan for these filters and settings. "),
+                html.Span("The effects above assume a game's attempts are equally hard. To adjust them for shot "
+                          "difficulty, stop the dashboard (it holds the store), run "),
+                html.Code(difficulty_command(service, season, attempt_type)),
+                html.Span(" and start it again."),
+            ],
+            className="sw-unavailable",
+        )]
+    model = payload.get("difficulty_model") or {}
+    covariates = ", ".join(model.get("covariates") or []) or "no covariates"
+    fit = (f"; log loss {model['log_loss']:.4f} against {model['base_log_loss']:.4f} for the base rate"
+           if model.get("log_loss") is not None and model.get("base_log_loss") is not None else "")
+    labels = {p: service.player_label(p, season, attempt_type) for p in players}
+    columns = ("player", f"adjusted corrected D_{k}", "p", "shot selection: expected rate after makes − after misses",
+               "p", "difficulty warnings")
+    parts = [
+        html.P(
+            f"From the saved difficulty scan (streakwise analyse --difficulty). Makes minus the difficulty model's "
+            f"expected probability; the null resamples each game's makes from its attempts' fitted probabilities. "
+            f"Difficulty model on {covariates}{fit}. The shot-selection check asks whether attempts after makes are "
+            "expected to go in less often than attempts after misses (harder shots).",
+            className="sw-note",
+        ),
+    ]
+    for warning in model.get("warnings") or []:
+        parts.append(html.P(f"Model warning: {warning}", className="sw-note"))
+    if players:
+        parts.append(html.Div(simple_table(columns, difficulty_rows(payload, players, labels, k)), className="sw-scroll"))
+    else:
+        parts.append(html.P("No players chosen."))
+    return parts
+
+
+def update_difficulty(service: DashboardService, players, season, attempt_type, k) -> list:
+    """The difficulty callback's work (the panel's children)."""
+    return difficulty_panel(service, players, season, attempt_type, k)
+
+
 def url_for_compare(search, players, season, attempt_type, k) -> str:
     return update_query(search, players=list(players or []), season=filter_value(season), type=attempt_type, k=k)
 
@@ -329,6 +420,16 @@ def register(app, service: DashboardService) -> None:
     )
     def _update(players, season, attempt_type, k):
         return update_compare(service, players, season, attempt_type, k)
+
+    @app.callback(
+        Output(ids.COMPARE_DIFFICULTY, "children"),
+        Input(ids.COMPARE_PLAYERS, "value"),
+        Input(ids.COMPARE_SEASON, "value"),
+        Input(ids.COMPARE_TYPE, "value"),
+        Input(ids.COMPARE_K, "value"),
+    )
+    def _difficulty(players, season, attempt_type, k):
+        return update_difficulty(service, players, season, attempt_type, k)
 
     @app.callback(
         Output(ids.COMPARE_PLAYERS, "options"),

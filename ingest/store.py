@@ -901,8 +901,7 @@ class Store:
 
     def result_key(self, kind: str, settings: dict) -> str:
         """The key :meth:`save_result` would use for ``kind`` and ``settings`` now."""
-        text = json.dumps({"kind": kind, "data_version": self.data_version(), "settings": settings}, sort_keys=True, default=str)
-        return hashlib.sha256(text.encode("utf-8")).hexdigest()
+        return _result_key(kind, self.data_version(), settings)
 
     def load_result(self, kind: str, settings: dict) -> dict | None:
         """The payload saved for ``kind`` and ``settings`` on the current data, or None."""
@@ -910,6 +909,32 @@ class Store:
         with self._lock:
             row = self._one("SELECT payload FROM results WHERE key = ?", [key])
         return None if row is None else json.loads(row[0])
+
+    def latest_result(self, kind: str, where: dict) -> dict | None:
+        """The newest payload of ``kind`` saved on the current data whose settings hold all of ``where``.
+
+        For results keyed by settings the reader cannot know in full (a
+        difficulty scan's ``draws``, say): a saved result matches when its
+        settings contain every item of ``where`` (compared as JSON) and its
+        key is the one :meth:`result_key` gives its settings now, so results
+        saved for older data are never returned. None when nothing matches.
+        """
+        wanted = json.loads(json.dumps(where, sort_keys=True, default=str))
+        with self._lock:
+            version = self.data_version()
+            rows = self._all(
+                "SELECT key, settings, payload FROM results WHERE kind = ? ORDER BY created_at DESC, key",
+                [kind],
+            )
+            for key, settings_text, payload_text in rows:
+                settings = json.loads(settings_text)
+                if not isinstance(settings, dict):
+                    continue
+                if any(name not in settings or settings[name] != value for name, value in wanted.items()):
+                    continue
+                if _result_key(kind, version, settings) == key:
+                    return json.loads(payload_text)
+        return None
 
     def table_names(self) -> tuple[str, ...]:
         """Return the names of the tables :meth:`export` can write."""
@@ -975,6 +1000,12 @@ class Store:
             except duckdb.IOException as exc:
                 raise InputError(f"cannot write the export: {exc}", path=str(output)) from None
         return int(row[0]) if row is not None else 0
+
+
+def _result_key(kind: str, data_version: str, settings: dict) -> str:
+    """Hash of a result's kind, data version and settings (the ``results`` key)."""
+    text = json.dumps({"kind": kind, "data_version": data_version, "settings": settings}, sort_keys=True, default=str)
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
 
 
 def _escaped(name: str) -> str:

@@ -143,6 +143,58 @@ class TestCompare:
         rates, *_, note = view_compare.update_compare(service, ["S001", "S002", "S003", "S004", "S005"], "all", "field_goal", 1)
         assert "first 4 players" in note and len(rates.data[0].x) == 4
 
+    def test_difficulty_panel(self, tmp_path):
+        from streakwise.cli.analyse_commands import DIFFICULTY_KIND
+        from streakwise.dashboard.service import DashboardService
+
+        service = DashboardService(copy_store(tmp_path), SETTINGS)
+        try:
+            page = view_compare.layout(service, {"players": "S001,S002", "k": "2"})
+            panel = text_of(find(page, ids.COMPARE_DIFFICULTY))
+            assert "No saved difficulty-adjusted scan" in panel
+            assert "streakwise analyse --difficulty --save --permutations 300 --seed 5" in panel
+            assert "--attempt-type field_goal" in panel and str(service.store_path) in panel
+            assert "not available yet" not in text_of(page)
+
+            def entry(player, corrected, p_value, warnings=()):
+                return {
+                    "player": player,
+                    "difficulty_adjusted": [
+                        {"k": k, "difference": 0.01 * k, "null_mean": -0.02, "corrected": corrected + k,
+                         "p_value": p_value, "reason": None} for k in (1, 2, 3)
+                    ],
+                    "streak_coefficient": {"estimate": 0.1},
+                    "shot_selection": {"k": 1, "difference": -0.0123, "p_value": 0.0456},
+                    "shrunk": [],
+                    "difficulty_warnings": list(warnings),
+                }
+
+            payload = {
+                "difficulty_model": {"covariates": ["distance"], "log_loss": 0.66, "base_log_loss": 0.69, "warnings": []},
+                "players": [entry("S001", 0.0421, 0.0123), entry("S002", -0.0312, 0.8765, ["harder shots after makes"])],
+            }
+            settings = service.scan_settings(None, "field_goal")
+            service.store.save_result(DIFFICULTY_KIND, {**settings, "seed": 999, "draws": 10}, {"players": []})
+            assert "No saved difficulty-adjusted scan" in text_of(
+                view_compare.update_difficulty(service, ["S001", "S002"], "all", "field_goal", 2))
+            service.store.save_result(DIFFICULTY_KIND, {**settings, "draws": 10}, payload)
+
+            panel = text_of(view_compare.update_difficulty(service, ["S001", "S002", "S003"], "all", "field_goal", 2))
+            assert "No saved difficulty-adjusted scan" not in panel
+            assert "adjusted corrected D_2" in panel
+            assert "+2.042" in panel and "0.0123" in panel  # S001: corrected D_2 and p
+            assert "+1.969" in panel and "0.8765" in panel  # S002
+            assert "-0.012" in panel and "0.0456" in panel  # shot selection
+            assert "harder shots after makes" in panel
+            assert "Player 3 (S003)" in panel and "not in the difficulty scan" in panel
+            page = view_compare.layout(service, {"players": "S001,S002", "k": "1"})
+            assert "+1.042" in text_of(find(page, ids.COMPARE_DIFFICULTY))
+            # other filters have no saved scan
+            assert "--season 2040-41" in text_of(
+                view_compare.update_difficulty(service, ["S001"], "2040-41", "field_goal", 1))
+        finally:
+            service.close()
+
     def test_url(self):
         assert view_compare.url_for_compare("?run=5", ["S001", "S002"], "all", "field_goal", 3) == \
             "?run=5&players=S001,S002&type=field_goal&k=3"

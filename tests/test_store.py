@@ -605,6 +605,34 @@ class TestDataVersion:
             assert store.data_version() == version
 
 
+class TestLatestResult:
+    def test_matching_subset_newest_wins_stale_ignored(self, store):
+        frame = shots("p01", "G1", [1, 0, 1])
+        store.add_source(source_info(sha="1" * 64, attempts=frame), frame, no_rejects())
+        base = {"players": None, "seasons": ["2024"], "permutations": 100, "seed": 7}
+        assert store.latest_result("difficulty_scan", base) is None
+
+        store.save_result("difficulty_scan", {**base, "draws": 50}, {"run": "stale"})
+        other = frame.assign(player="p02")
+        store.add_source(source_info(name="season2.csv", sha="2" * 64, attempts=other), other, no_rejects())
+        # saved for older data: never read back
+        assert store.latest_result("difficulty_scan", base) is None
+
+        store.save_result("difficulty_scan", {**base, "draws": 50}, {"run": "older"})
+        time.sleep(0.01)
+        store.save_result("difficulty_scan", {**base, "draws": 200}, {"run": "newer"})
+        store.save_result("difficulty_scan", {**base, "seed": 8, "draws": 300}, {"run": "other seed"})
+        store.save_result("league_scan", base, {"run": "other kind"})
+
+        assert store.latest_result("difficulty_scan", base) == {"run": "newer"}
+        assert store.latest_result("difficulty_scan", {**base, "seasons": ("2024",)}) == {"run": "newer"}
+        assert store.latest_result("difficulty_scan", {**base, "draws": 50}) == {"run": "older"}
+        assert store.latest_result("difficulty_scan", {**base, "seed": 8}) == {"run": "other seed"}
+        assert store.latest_result("difficulty_scan", {**base, "seed": 9}) is None
+        assert store.latest_result("difficulty_scan", {"missing": None}) is None
+        assert store.latest_result("league_scan", {"seed": 7}) == {"run": "other kind"}
+
+
 # -- export --------------------------------------------------------------------------
 
 
