@@ -36,6 +36,7 @@ import numpy as np
 import pandas as pd
 from scipy import special, stats
 
+from ._values import json_number as _number
 from .conditional import (
     _check_count,
     _check_offsets,
@@ -215,13 +216,6 @@ def player_attempts(frame, player, probability=None):
 # ---------------------------------------------------------------------------
 # Results
 # ---------------------------------------------------------------------------
-
-
-def _number(value):
-    if value is None:
-        return None
-    value = float(value)
-    return None if math.isnan(value) else value
 
 
 @dataclass(frozen=True, eq=False)
@@ -955,7 +949,6 @@ def _shot_selection(x, p, distance, offsets, position, k, permutations, rng, bat
         distance_null_mean=distance_null_mean,
         distance_p_value=distance_p,
     )
-
 
 
 @dataclass(frozen=True)

@@ -27,6 +27,9 @@ import numbers
 
 import numpy as np
 
+from ._values import show_value as _show
+
+
 __all__ = [
     "conditional_inclusion_probabilities",
     "player_generator",
@@ -39,17 +42,6 @@ _BATCH_CELLS = 1 << 22  # draws x padded attempts held at once by default
 # ---------------------------------------------------------------------------
 # Validation helpers (shared with the other difficulty modules)
 # ---------------------------------------------------------------------------
-
-
-def _show(value):
-    if isinstance(value, (bool, np.bool_)):
-        return repr(bool(value))
-    if isinstance(value, numbers.Integral):
-        return str(int(value))
-    if isinstance(value, numbers.Real):
-        return repr(float(value))
-    text = repr(value)
-    return text if len(text) <= 60 else text[:57] + "..."
 
 
 def _check_count(name, value, *, minimum=0):

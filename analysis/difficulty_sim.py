@@ -30,6 +30,9 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import special
 
+from ._values import show_value as _show
+
+
 __all__ = [
     "DifficultyModel",
     "OutcomeDependentDraw",
@@ -208,16 +211,6 @@ class DifficultyModel:
 # ---------------------------------------------------------------------------
 # Validation helpers
 # ---------------------------------------------------------------------------
-
-
-def _show(value):
-    if isinstance(value, (bool, np.bool_)):
-        return repr(bool(value))
-    if isinstance(value, numbers.Integral):
-        return str(int(value))
-    if isinstance(value, numbers.Real):
-        return repr(float(value))
-    return repr(value)
 
 
 def _finite_real(name, value):

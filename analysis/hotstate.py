@@ -32,6 +32,7 @@ import numpy as np
 import pandas as pd
 from scipy import special, stats
 
+from ._values import json_number as _number
 from .conditional import (
     _check_count,
     _check_offsets,
@@ -80,13 +81,6 @@ _CAVEATS = (
 # ---------------------------------------------------------------------------
 # Result
 # ---------------------------------------------------------------------------
-
-
-def _number(value):
-    if value is None:
-        return None
-    value = float(value)
-    return None if math.isnan(value) else value
 
 
 @dataclass(frozen=True, eq=False)

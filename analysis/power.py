@@ -56,6 +56,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from ._values import json_number as _number
 from .figures import OKABE_ITO
 from .permutation import METHODS, permutation_test, player_seed_sequence
 from .simulate import hidden_state_moments, simulate_hidden_state, simulate_session_lengths
@@ -113,13 +114,6 @@ _DASHES = ("solid", "dash", "dot", "dashdot", "longdash", "longdashdot")
 
 def _test_names(max_k):
     return tuple(f"D_{k}" for k in range(1, max_k + 1)) + ("runs", "longest_run")
-
-
-def _number(value):
-    if value is None:
-        return None
-    value = float(value)
-    return None if math.isnan(value) else value
 
 
 def _fmt(value, digits=3):

@@ -15,6 +15,9 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from ._values import json_number as _number
+
+
 __all__ = [
     "CAVEATS",
     "ConditionalRates",
@@ -45,14 +48,6 @@ LEAGUE_CAVEAT = (
     "Many players were tested: some small p-values are expected by chance alone. "
     "Use the q-values (Benjamini-Hochberg) to pick players out."
 )
-
-
-def _number(value):
-    """A plain float, or None for NaN / None."""
-    if value is None:
-        return None
-    value = float(value)
-    return None if math.isnan(value) else value
 
 
 def _pair(values):

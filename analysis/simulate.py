@@ -29,6 +29,9 @@ from dataclasses import dataclass, fields
 import numpy as np
 from scipy import optimize, special
 
+from ._values import show_value as _show
+
+
 __all__ = [
     "HiddenStateDraw",
     "HiddenStateMoments",
@@ -193,17 +196,6 @@ class MarkovMoments:
 # ---------------------------------------------------------------------------
 # Shared helpers
 # ---------------------------------------------------------------------------
-
-
-def _show(value):
-    """Render a rejected argument for an error message."""
-    if isinstance(value, (bool, np.bool_)):
-        return repr(bool(value))
-    if isinstance(value, numbers.Integral):
-        return str(int(value))
-    if isinstance(value, numbers.Real):
-        return repr(float(value))
-    return repr(value)
 
 
 def _check_count(name, value, *, minimum=0):

@@ -36,6 +36,7 @@ import numbers
 
 import numpy as np
 
+from ._values import show_value as _show
 from .results import ConditionalRates, StreakCounts
 from .sequences import PlayerSequences
 
@@ -53,18 +54,6 @@ MAX_K = 8
 # ---------------------------------------------------------------------------
 # Shared input validation (also used by the other statistics modules)
 # ---------------------------------------------------------------------------
-
-
-def _show(value):
-    if isinstance(value, (bool, np.bool_)):
-        return repr(bool(value))
-    if isinstance(value, numbers.Integral):
-        return str(int(value))
-    if isinstance(value, numbers.Real):
-        return repr(float(value))
-    if isinstance(value, np.ndarray):
-        return f"array of shape {value.shape}"
-    return repr(value)
 
 
 def _check_integer(name, value, *, minimum=None, maximum=None):
