@@ -72,9 +72,16 @@ from .results import (
     StreakCounts,
     StreakTestResult,
 )
-from .runs import longest_run_distribution, runs_distribution, runs_moments, runs_test, serial_correlation
+from .runs import (
+    longest_run_distribution,
+    runs_distribution,
+    runs_moments,
+    runs_test,
+    season_longest_run_distribution,
+    serial_correlation,
+)
 from .sequences import PlayerSequences, player_sequences, session_arrays
-from .shrinkage import ShrinkageResult, shrink_effects
+from .shrinkage import ShrinkageResult, shrink_effects, shrink_scan_effects
 from .streaks import conditional_rates, count_runs, lag1_correlation, longest_run, streak_counts
 from .simulate import (
     HiddenStateDraw,
@@ -178,9 +185,11 @@ __all__ = [
     "runs_test",
     "sample_conditional_bernoulli",
     "sample_shot_covariates",
+    "season_longest_run_distribution",
     "serial_correlation",
     "session_arrays",
     "shrink_effects",
+    "shrink_scan_effects",
     "simulate_bernoulli",
     "simulate_hidden_state",
     "simulate_markov",

@@ -27,6 +27,7 @@ __all__ = [
     "runs_distribution",
     "runs_moments",
     "runs_test",
+    "season_longest_run_distribution",
     "serial_correlation",
 ]
 
@@ -460,3 +461,56 @@ def serial_correlation(x, offsets=None, *, max_lag=1, alternative="hot"):
         p = np.minimum(1.0, 2.0 * np.minimum(p_hot, p_cold))
     return SerialCorrelationResult(lags=lags, correlation=correlation, pairs=pairs, z=z,
                                    p_value=p, alternative=alternative)
+
+
+@lru_cache(maxsize=4096)
+def _game_longest_run_cdf(length: int, makes: int, top: int) -> tuple[float, ...]:
+    """P(longest run of makes <= r), r = 0..top, for one game's arrangements."""
+    cdf = np.cumsum(longest_run_distribution(length, makes))
+    out = np.ones(top + 1)
+    out[: min(top + 1, cdf.size)] = cdf[: top + 1]
+    return tuple(np.minimum(out, 1.0))
+
+
+def season_longest_run_distribution(lengths, makes):
+    r"""Distribution of the longest run of makes in any one game, under within-game shuffles.
+
+    Parameters
+    ----------
+    lengths, makes : array_like of int
+        Attempts and makes of each game (session).
+
+    Returns
+    -------
+    ndarray
+        ``pmf[r]`` = P(the longest run of makes in any one game is r),
+        r = 0..max(makes).
+
+    Notes
+    -----
+    Each game's makes are spread over its attempts, every arrangement equally
+    likely, independently across games (the permutation test's null). The
+    season's longest run is at most r when every game's is, so
+
+    .. math:: P(\max_g R_g \le r) = \prod_g P(R_g \le r),
+
+    each factor exact (:func:`longest_run_distribution`).
+
+    Examples
+    --------
+    >>> from streakwise.analysis.runs import season_longest_run_distribution
+    >>> season_longest_run_distribution([3, 2], [1, 2]).tolist()
+    [0.0, 0.0, 1.0]
+    """
+    lengths = np.asarray(lengths, dtype=np.int64)
+    makes = np.asarray(makes, dtype=np.int64)
+    if lengths.shape != makes.shape or lengths.ndim != 1:
+        raise ValueError("`lengths` and `makes` must be one-dimensional and of the same length "
+                         f"(got shapes {lengths.shape} and {makes.shape})")
+    if np.any(makes < 0) or np.any(makes > lengths):
+        raise ValueError("every game needs 0 <= makes <= attempts")
+    top = int(makes.max(initial=0))
+    cdf = np.ones(top + 1)
+    for length, count in zip(lengths.tolist(), makes.tolist()):
+        cdf *= np.asarray(_game_longest_run_cdf(int(length), int(count), top))
+    return np.clip(np.diff(np.r_[0.0, cdf]), 0.0, 1.0)

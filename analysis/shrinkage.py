@@ -19,7 +19,7 @@ from scipy import optimize, stats
 
 from .conditional import _show
 
-__all__ = ["ShrinkageResult", "shrink_effects"]
+__all__ = ["ShrinkageResult", "shrink_effects", "shrink_scan_effects"]
 
 METHODS = ("dersimonian-laird", "reml")
 
@@ -273,3 +273,40 @@ def shrink_effects(estimates, standard_errors, players=None, *, method="reml", c
         i2=i2,
         confidence_level=level,
     )
+
+
+def shrink_scan_effects(scan, k, *, method="reml"):
+    """Shrink a league scan's corrected D_k towards the league's spread of effects.
+
+    Parameters
+    ----------
+    scan : dict
+        A league scan payload (``LeagueScanResult.to_dict()``).
+    k : int
+        Streak length.
+    method : {"reml", "dersimonian-laird"}
+
+    Returns
+    -------
+    ShrinkageResult or None
+        None when fewer than three players have a defined effect and interval.
+
+    Notes
+    -----
+    The scan keeps each corrected effect's 95% game-resampling interval, not
+    its standard error; the standard error is read off the interval as
+    width / 3.92 (its normal-theory width), an approximation.
+    """
+    players, estimates, errors = [], [], []
+    for entry in scan.get("players", []):
+        streak = entry["streak"][k - 1] if 0 < k <= len(entry["streak"]) else None
+        if not streak or streak.get("corrected") is None or not streak.get("interval"):
+            continue
+        low, high = streak["interval"]
+        if low is not None and high is not None and high > low:
+            players.append(entry["player"])
+            estimates.append(streak["corrected"])
+            errors.append((high - low) / (2 * stats.norm.ppf(0.975)))
+    if len(players) < 3:
+        return None
+    return shrink_effects(estimates, errors, players, method=method)

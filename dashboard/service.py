@@ -28,6 +28,7 @@ from typing import Any
 import pandas as pd
 
 from streakwise.analysis import PlayerSequences, StreakTestResult, league_scan, permutation_test, player_sequences
+from streakwise.analysis.shrinkage import shrink_scan_effects
 from streakwise.cli.analyse_commands import DIFFICULTY_KIND, RESULT_KIND, scan_settings
 from streakwise.ingest import FIELD_GOAL, InputError, Profile, Store, check_files, parse_profile, store_files
 from streakwise.ingest.pipeline import FileOutcome
@@ -398,33 +399,18 @@ class DashboardService:
     def shrunk_effects(self, season: str | None, attempt_type: str | None, k: int) -> dict[str, tuple[float, float, float]]:
         """Each scanned player's corrected D_k shrunk towards the league (empty until the scan is saved).
 
-        ``streakwise.analysis.shrinkage.shrink_effects`` (empirical Bayes,
-        REML) on the scan's corrected effects, with standard errors read off
-        their 95% game-resampling intervals (width / 3.92): an approximation,
-        said so on the page. Returns ``{player: (shrunk, low, high)}``.
+        :func:`streakwise.analysis.shrinkage.shrink_scan_effects` (empirical
+        Bayes, REML; standard errors read off the 95% intervals, an
+        approximation said so on the page). Returns ``{player: (shrunk, low, high)}``.
         """
         view = self.scan(season, attempt_type)
         if view.payload is None:
             return {}
 
         def make() -> dict:
-            try:
-                from streakwise.analysis.shrinkage import shrink_effects
-            except ImportError:  # pragma: no cover - only while shrinkage is missing
+            result = shrink_scan_effects(view.payload, k)
+            if result is None:
                 return {}
-            players, estimates, errors = [], [], []
-            for entry in view.payload["players"]:
-                streak = entry["streak"][k - 1] if k <= len(entry["streak"]) else None
-                if not streak or streak["corrected"] is None or not streak["interval"]:
-                    continue
-                low, high = streak["interval"]
-                if high > low:
-                    players.append(entry["player"])
-                    estimates.append(streak["corrected"])
-                    errors.append((high - low) / 3.92)
-            if len(players) < 3:
-                return {}
-            result = shrink_effects(estimates, errors, players)
             return {p: (float(m), float(lo), float(hi)) for p, m, lo, hi in
                     zip(result.players, result.shrunk, result.interval_low, result.interval_high, strict=True)}
 

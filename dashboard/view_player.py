@@ -12,14 +12,13 @@
 from __future__ import annotations
 
 import importlib.util
-from functools import lru_cache
 
 import numpy as np
 import plotly.graph_objects as go
 from dash import Input, Output, State, dcc, html, no_update
 
 from streakwise.analysis import PlayerSequences, rates_figure
-from streakwise.analysis.runs import longest_run_distribution
+from streakwise.analysis.runs import season_longest_run_distribution
 
 from . import ids, theme
 from .briefing import player_briefing_html
@@ -176,39 +175,14 @@ def game_strip_figure(sequences: PlayerSequences, label: str, run: int) -> go.Fi
     return figure
 
 
-@lru_cache(maxsize=4096)
-def _game_cdf(length: int, makes: int, top: int) -> tuple[float, ...]:
-    pmf = longest_run_distribution(length, makes)
-    cdf = np.cumsum(pmf)
-    out = np.ones(top + 1)
-    out[: min(top + 1, cdf.size)] = cdf[: top + 1]
-    return tuple(np.minimum(out, 1.0))
-
-
 def season_longest_run(sequences: PlayerSequences) -> tuple[int, np.ndarray]:
     """The longest run of makes in any one game, and its distribution under within-game shuffles.
 
-    Each game's makes are spread over its attempts, every arrangement equally
-    likely, independently across games (the permutation test's null). The
-    season's longest run is at most r when every game's is, so its
-    distribution function is the product of the games' exact ones
-    (:func:`streakwise.analysis.runs.longest_run_distribution`).
-
-    Returns
-    -------
-    observed : int
-    pmf : ndarray
-        ``pmf[r]`` = P(longest run of makes in any one game = r).
+    Returns ``(observed, pmf)``; the distribution comes from
+    :func:`streakwise.analysis.runs.season_longest_run_distribution`.
     """
-    lengths = sequences.lengths
-    makes = sequences.makes
     observed = max((int(run_lengths(sequences.session(g)).max(initial=0)) for g in range(len(sequences))), default=0)
-    top = int(makes.max(initial=0))
-    cdf = np.ones(top + 1)
-    for length, count in zip(lengths.tolist(), makes.tolist()):
-        cdf *= np.asarray(_game_cdf(int(length), int(count), top))
-    pmf = np.diff(np.r_[0.0, cdf])
-    return observed, np.clip(pmf, 0.0, 1.0)
+    return observed, season_longest_run_distribution(sequences.lengths, sequences.makes)
 
 
 def longest_run_figure(observed: int, pmf: np.ndarray, label: str) -> go.Figure:

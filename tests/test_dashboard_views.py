@@ -12,7 +12,7 @@ from dash import html
 from dashboard_support import BAD_CSV, copy_store
 
 from streakwise.analysis import player_sequences
-from streakwise.analysis.runs import longest_run_distribution
+from streakwise.analysis.runs import longest_run_distribution, season_longest_run_distribution
 from streakwise.dashboard import app as app_module
 from streakwise.dashboard import ids, view_compare, view_data, view_league, view_odds, view_planning, view_player
 from streakwise.dashboard.cautions import CAUTIONS
@@ -286,7 +286,7 @@ class TestPlayer:
         assert observed == 2
         np.testing.assert_allclose(pmf, expected[: pmf.size], atol=1e-12)
         # one game reduces to the exact distribution of streakwise.analysis
-        np.testing.assert_allclose(view_player._game_cdf(9, 4, 4), np.cumsum(longest_run_distribution(9, 4)))
+        np.testing.assert_allclose(np.cumsum(season_longest_run_distribution([9], [4])), np.cumsum(longest_run_distribution(9, 4)))
 
     def test_update(self, service):
         summary, strip, longest, rates = view_player.update_player(service, "S009", "2040-41", "field_goal", 3)

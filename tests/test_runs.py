@@ -229,3 +229,34 @@ class TestSerialCorrelation:
         assert float(res.p_value[0]) + float(cold.p_value[0]) == pytest.approx(1.0)
         assert "1. Chance alone" in res.summary() and list(res.to_frame().columns)[:3] == [
             "lag", "correlation", "pairs"]
+
+
+class TestSeasonLongestRunDistribution:
+    def test_validation(self):
+        from streakwise.analysis.runs import season_longest_run_distribution
+
+        with pytest.raises(ValueError, match="0 <= makes <= attempts"):
+            season_longest_run_distribution([3], [4])
+        with pytest.raises(ValueError, match="of the same length"):
+            season_longest_run_distribution([3, 4], [1])
+
+    def test_against_enumeration(self):
+        # exact: every arrangement of each game's makes equally likely, games independent
+        import itertools
+
+        from streakwise.analysis.runs import season_longest_run_distribution
+
+        games = [(5, 3), (4, 2), (3, 1)]
+        arrangements = [
+            [a for a in itertools.product((0, 1), repeat=n) if sum(a) == m] for n, m in games
+        ]
+        counts = np.zeros(4)
+        for combo in itertools.product(*arrangements):
+            longest = 0
+            for a in combo:
+                run = 0
+                for v in a:
+                    run = run + 1 if v else 0
+                    longest = max(longest, run)
+            counts[longest] += 1
+        np.testing.assert_allclose(season_longest_run_distribution([5, 4, 3], [3, 2, 1]), counts / counts.sum(), atol=1e-12)

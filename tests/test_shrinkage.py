@@ -104,3 +104,21 @@ class TestShrinkEffects:
         shares = np.array(shares)
         se_mean = shares.std(ddof=1) / math.sqrt(trials)
         assert -4 * se_mean - 0.01 < shares.mean() - 0.95 < 4 * se_mean, shares.mean()
+
+
+class TestShrinkScanEffects:
+    def test_reads_scan_and_matches_shrink_effects(self):
+        from scipy import stats as st
+
+        from streakwise.analysis.shrinkage import shrink_effects, shrink_scan_effects
+
+        scan = {"players": [
+            {"player": p, "streak": [{"corrected": e, "interval": [e - w, e + w]}]}
+            for p, e, w in (("a", 0.05, 0.04), ("b", -0.01, 0.02), ("c", 0.02, 0.03), ("d", 0.0, 0.0))
+        ]}
+        result = shrink_scan_effects(scan, 1)
+        z = st.norm.ppf(0.975)
+        expected = shrink_effects([0.05, -0.01, 0.02], [0.04 / z, 0.02 / z, 0.03 / z], ["a", "b", "c"])
+        assert list(result.players) == ["a", "b", "c"]  # "d" has no interval width: left out
+        np.testing.assert_allclose(result.shrunk, expected.shrunk)
+        assert shrink_scan_effects(scan, 2) is None
